@@ -1,0 +1,49 @@
+# Striae: two commands do all the set-up on a fresh machine.
+#   make demo   install, build the demo atlas, serve it
+#   make test   install (with test extras and Chromium), run the tests
+#   make bench  run the benchmarks (prints figures; never fails on speed)
+
+PYTHON ?= python3
+VENV   := .venv
+BIN    := $(VENV)/bin
+STAMP  := $(VENV)/.installed
+PORT   ?= 5006
+ADDRESS ?= 127.0.0.1
+
+.PHONY: demo test bench install chromium lint demo-atlas demo-data clean
+
+$(STAMP): pyproject.toml
+	$(PYTHON) -m venv $(VENV)
+	$(BIN)/pip install --quiet --disable-pip-version-check --upgrade pip
+	$(BIN)/pip install --quiet --disable-pip-version-check -e '.[test]'
+	touch $(STAMP)
+
+install: $(STAMP)
+
+# Debian's Chromium drives the browser tests (Playwright uses it; nothing is downloaded).
+chromium:
+	@if [ -x /usr/bin/chromium ]; then :; \
+	elif [ "$$(id -u)" = 0 ]; then \
+	  echo "installing Debian's chromium for the browser tests"; \
+	  apt-get update -qq && DEBIAN_FRONTEND=noninteractive apt-get install -y -qq chromium; \
+	elif command -v sudo >/dev/null; then \
+	  sudo apt-get update -qq && sudo DEBIAN_FRONTEND=noninteractive apt-get install -y -qq chromium; \
+	else echo "note: /usr/bin/chromium is missing; browser tests will be skipped"; fi
+
+test: install chromium
+	$(BIN)/python -m pytest
+
+demo-atlas: install
+	$(BIN)/striae build build/demo.toml
+
+demo: demo-atlas
+	$(BIN)/striae serve build/demo-atlas --port $(PORT) --address $(ADDRESS)
+
+bench: install
+	$(BIN)/python tests/bench/run.py
+
+lint: install
+	$(BIN)/ruff check atlas tests
+
+clean:
+	rm -rf $(VENV) build/demo-atlas

@@ -1,0 +1,5 @@
+import sys
+
+from atlas.cli import main
+
+sys.exit(main())
