@@ -1,0 +1,155 @@
+"""Reader for a FITS image HDU holding one 1-D spectrum with a spectral WCS.
+
+The spectral axis is axis 1, ``CTYPE1`` one of ``WAVE``, ``AWAV`` (linear) or
+``WAVE-LOG``, ``AWAV-LOG`` (logarithmic), with ``CRVAL1``, ``CRPIX1``, the step
+``CDELT1`` or ``CD1_1``, and the unit ``CUNIT1``.  Wavelengths are evaluated by
+astropy.wcs (wcslib), never by hand.  ``AWAV*`` means air wavelengths, ``WAVE*``
+vacuum.  An image of shape (1, N) is read as a 1-D spectrum.  An optional
+uncertainty image of the same length sits in an HDU named ``UNCERTAINTY``,
+``ERROR``, ``ERR``, ``SIGMA``, ``STDDEV`` or ``NOISE`` (standard deviations),
+``VARIANCE``/``VAR`` or ``IVAR``/``INVVAR`` (converted to standard deviations).
+
+References
+----------
+Greisen, E. W., Calabretta, M. R., Valdes, F. G., & Allen, S. L. 2006,
+"Representations of spectral coordinates in FITS", A&A 446, 747 (FITS WCS Paper III).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from atlas.errors import InputError
+from atlas.io import fitsutil, validate
+
+NAME = "fits_image"
+DESCRIPTION = "FITS image holding a 1-D spectrum with a linear or log-linear spectral WCS"
+
+#: CTYPE1 values we read and the medium each one means (Greisen et al. 2006, Table 1 and sect. 3).
+SPECTRAL_CTYPES = {"WAVE": "vacuum", "AWAV": "air", "WAVE-LOG": "vacuum", "AWAV-LOG": "air"}
+
+
+def _is_spectrum_image(extname: str, header, is_image: bool) -> bool:
+    if not is_image or extname in fitsutil.UNCERTAINTY_NAMES:
+        return False
+    naxis = header.get("NAXIS", 0)
+    n1 = header.get("NAXIS1", 0)
+    if naxis == 1:
+        return n1 > 1
+    if naxis == 2:
+        return header.get("NAXIS2", 0) == 1 and n1 > 1
+    return False
+
+
+def can_read(path) -> bool:
+    """True for a FITS file with an image HDU of shape (N,) or (1, N)."""
+    if not validate.is_fits(path):
+        return False
+    headers = fitsutil.peek(path)
+    return bool(headers) and any(_is_spectrum_image(*h) for h in headers)
+
+
+def read(path, *, wave_unit=None, medium=None, **_options):
+    """Read the first 1-D spectrum image of a FITS file into a Spectrum."""
+    p = validate.check_file(path)
+    with fitsutil.open_fits(p) as hdul:
+        index = next(
+            (
+                i
+                for i, hdu in enumerate(hdul)
+                if _is_spectrum_image(
+                    str(hdu.header.get("EXTNAME", "")).strip().upper(), hdu.header, hdu.is_image
+                )
+            ),
+            None,
+        )
+        if index is None:
+            raise InputError(p, "not a spectrum file: no image HDU of shape (N,) or (1, N)")
+        hdu = hdul[index]
+        header = hdu.header.copy()
+        flux = np.asarray(hdu.data, dtype=np.float64).reshape(-1)
+        wave_A, file_medium = wavelengths_from_wcs(header, flux.size, p, wave_unit)
+        unc = _uncertainty(hdul, index, p)
+        attrs = fitsutil.header_metadata(
+            fitsutil.merged_header(hdul[0].header if index else None, header)
+        )
+    return validate.build(
+        p, NAME, wave_A, flux, unc, medium=file_medium, medium_option=medium, attrs=attrs
+    )
+
+
+def wavelengths_from_wcs(header, n: int, path, wave_unit=None) -> tuple[np.ndarray, str]:
+    """Wavelengths (Å) of pixels 0..n-1 on axis 1 of a header's WCS, and the medium.
+
+    References
+    ----------
+    Greisen et al. 2006, A&A 446, 747 (FITS WCS Paper III), evaluated by astropy.wcs.
+    """
+    from astropy.wcs import WCS
+
+    ctype = str(header.get("CTYPE1", "")).strip().upper()
+    if not ctype:
+        raise InputError(path, "no spectral axis: the image has no WCS (CTYPE1 missing)")
+    if ctype not in SPECTRAL_CTYPES:
+        raise InputError(
+            path,
+            f"no spectral axis: CTYPE1 is {ctype!r}, expected one of " + ", ".join(SPECTRAL_CTYPES),
+        )
+    if header.get("CRVAL1") is None:
+        raise InputError(path, "no spectral axis: CRVAL1 (reference wavelength) missing")
+    if header.get("CDELT1") is None and header.get("CD1_1") is None:
+        raise InputError(
+            path, "no spectral axis: neither CDELT1 nor CD1_1 gives the wavelength step"
+        )
+    unit = _axis_unit(header.get("CUNIT1"), wave_unit, path)
+    h = header.copy()
+    h["CUNIT1"] = unit.to_string("fits")
+    try:
+        with fitsutil.quiet():
+            w = WCS(h, naxis=1)
+            world = w.wcs_pix2world(np.arange(n, dtype=np.float64), 0)[0]
+            out_unit = w.wcs.cunit[0]
+    except Exception as exc:
+        raise InputError(
+            path, f"no spectral axis: unusable WCS ({validate.short_reason(exc)})"
+        ) from None
+    return validate.to_angstrom(world, out_unit), SPECTRAL_CTYPES[ctype]
+
+
+def _axis_unit(file_unit, wave_unit, path):
+    """The wavelength unit: the file's, else ``wave_unit``; both must agree when both are given."""
+    has_file = file_unit is not None and str(file_unit).strip() != ""
+    if has_file:
+        unit = validate.wavelength_unit(file_unit, path, "the spectral axis (CUNIT1)")
+        if wave_unit is not None:
+            opt = validate.wavelength_unit(wave_unit, "--wave-unit", "wavelengths")
+            if opt != unit:
+                raise InputError(
+                    "--wave-unit", f"{wave_unit!r} disagrees with the file's CUNIT1 {file_unit!r}"
+                )
+        return unit
+    if wave_unit is None:
+        raise InputError(path, "no wavelength unit: CUNIT1 missing; give it with --wave-unit")
+    return validate.wavelength_unit(wave_unit, "--wave-unit", "wavelengths")
+
+
+def _uncertainty(hdul, index, path):
+    """Standard deviations from an uncertainty HDU, or None."""
+    for i, hdu in enumerate(hdul):
+        if i == index or not hdu.is_image or hdu.data is None:
+            continue
+        kind = fitsutil.UNCERTAINTY_NAMES.get(str(hdu.header.get("EXTNAME", "")).strip().upper())
+        if kind:
+            return to_sigma(np.asarray(hdu.data, dtype=np.float64).reshape(-1), kind)
+    return None
+
+
+def to_sigma(values, kind: str) -> np.ndarray:
+    """Standard deviations from ``sigma``, ``variance`` or ``ivar`` (inverse variance) values."""
+    v = np.asarray(values, dtype=np.float64)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        if kind == "variance":
+            v = np.sqrt(np.where(v >= 0, v, np.nan))
+        elif kind == "ivar":
+            v = np.where(v > 0, 1.0 / np.sqrt(np.where(v > 0, v, 1.0)), np.nan)
+    return v
