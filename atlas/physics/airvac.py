@@ -108,7 +108,9 @@ def _refractivity(method, **air):
         return refractivity_morton
     if method == "ciddor":
         return lambda w: refractivity_ciddor(w, **air)
-    raise InputError("method", f"unknown air/vacuum method {method!r}; use one of {', '.join(METHODS)}")
+    raise InputError(
+        "method", f"unknown air/vacuum method {method!r}; use one of {', '.join(METHODS)}"
+    )
 
 
 def vacuum_to_air_A(wave_A, method="morton", **air):

@@ -33,7 +33,9 @@ def _time(obs_time_utc, where="time") -> Time:
     try:
         t = Time(str(obs_time_utc).strip(), scale="utc")
     except ValueError as exc:
-        raise InputError(where, f"cannot read {obs_time_utc!r} as a UTC date and time ({exc})") from None
+        raise InputError(
+            where, f"cannot read {obs_time_utc!r} as a UTC date and time ({exc})"
+        ) from None
     return t
 
 
@@ -132,7 +134,9 @@ def correction_for(ds, *, site=None, radec=None, time=None):
         try:
             lat, lon, h = (float(x) for x in site)
         except (TypeError, ValueError):
-            raise InputError("--site", f"expected latitude, longitude, height_m; got {site!r}") from None
+            raise InputError(
+                "--site", f"expected latitude, longitude, height_m; got {site!r}"
+            ) from None
         if not (-90 <= lat <= 90 and np.isfinite(lon) and np.isfinite(h)):
             raise InputError("--site", f"latitude must be within -90..90 degrees; got {lat}")
     elif all(_finite(attrs.get(k)) for k in ("site_lat_deg", "site_lon_deg")):

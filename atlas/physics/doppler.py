@@ -68,6 +68,4 @@ def unshift(wave, rv):
 
 def velocity(wave, ref):
     """Quantity version of :func:`velocity_kms` (returns km/s)."""
-    return (
-        velocity_kms(u.Quantity(wave).to_value(u.AA), u.Quantity(ref).to_value(u.AA)) * _KMS
-    )
+    return velocity_kms(u.Quantity(wave).to_value(u.AA), u.Quantity(ref).to_value(u.AA)) * _KMS

@@ -118,7 +118,12 @@ def fit_colour_temperature(wave_A, flux, uncertainty=None, *, t_min_k=1000.0, t_
         warnings.simplefilter("ignore", OptimizeWarning)
         try:
             popt, pcov = curve_fit(
-                model, w, fn, p0=(t0, a0), sigma=sn, absolute_sigma=sn is not None,
+                model,
+                w,
+                fn,
+                p0=(t0, a0),
+                sigma=sn,
+                absolute_sigma=sn is not None,
                 bounds=((t_min_k, 0.0), (t_max_k, np.inf)),
             )
             t_fit, a_fit = float(popt[0]), float(popt[1])
