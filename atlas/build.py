@@ -1,0 +1,514 @@
+"""The build: spectrum files -> strips, continuum, envelopes, measurements -> an atlas on disk.
+
+One function does one star from file to finished store (:func:`build_star`); it runs in
+this process or on dask.distributed workers unchanged.  :func:`build_atlas` decides
+which stars need building (a star whose input bytes and build options are unchanged
+is kept as it is), runs the per-star work serially or on a cluster, assigns unique
+ids, commits the catalog and removes stores the new catalog no longer names.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import datetime as _dt
+import glob
+import hashlib
+import json
+import os
+import sys
+from dataclasses import dataclass, field
+
+import numpy as np
+import xarray as xr
+
+from atlas import __version__, store
+from atlas.continuum import ContinuumSettings, fit_continuum
+from atlas.errors import InputError
+from atlas.lod import FACTOR, build_levels
+from atlas.spectrum import is_echelle, medium_of, sha256_of
+from atlas.strips import (
+    DEFAULT_OVERLAP,
+    StripPlan,
+    auto_strip_kms,
+    check_overlap,
+    check_width,
+    gather,
+    plan_equal_A,
+    plan_orders,
+    plan_velocity,
+)
+
+#: Bytes aimed at per chunk of a float32 (strip, pixel) variable.
+CHUNK_BYTES = 256 * 1024
+
+
+@dataclass(frozen=True)
+class BuildOptions:
+    """Everything that shapes a built star (recorded as ``options`` in ``atlas.json``).
+
+    strip_kms: strip width in km/s, None = chosen per star from its sampling.
+    overlap: fraction of a strip shared with its neighbour, in [0, 0.5).
+    equal_A: strip width in Å instead of velocity (None = velocity strips).
+    merge_orders: cut echelle data as one merged spectrum instead of one strip per order.
+    site: (lat_deg, lon_deg, height_m), radec: (ra_deg, dec_deg), time: ISO UTC; override files.
+    """
+
+    strip_kms: float | None = None
+    overlap: float = DEFAULT_OVERLAP
+    equal_A: float | None = None
+    merge_orders: bool = False
+    site: tuple | None = None
+    radec: tuple | None = None
+    time: str | None = None
+    continuum: ContinuumSettings = field(default_factory=ContinuumSettings)
+
+    def __post_init__(self):
+        if self.strip_kms is not None:
+            object.__setattr__(self, "strip_kms", check_width(self.strip_kms, "--strip-kms"))
+        if self.equal_A is not None:
+            object.__setattr__(self, "equal_A", check_width(self.equal_A, "--equal-A"))
+        if self.strip_kms is not None and self.equal_A is not None:
+            raise InputError("--equal-A", "give either --strip-kms or --equal-A, not both")
+        object.__setattr__(self, "overlap", check_overlap(self.overlap))
+
+    def as_dict(self) -> dict:
+        d = dataclasses.asdict(self)
+        d["continuum"] = self.continuum.as_dict()
+        d["site"] = list(self.site) if self.site is not None else None
+        d["radec"] = list(self.radec) if self.radec is not None else None
+        return d
+
+
+# ---------------------------------------------------------------- one star, in memory
+
+
+def _sorted_1d(wave, *arrays):
+    """Drop samples without a finite positive wavelength; sort by wavelength if needed."""
+    good = np.isfinite(wave) & (wave > 0)
+    dropped = int(good.size - np.count_nonzero(good))
+    if dropped:
+        wave = wave[good]
+        arrays = tuple(None if a is None else a[good] for a in arrays)
+    if wave.size > 1 and not np.all(wave[1:] >= wave[:-1]):
+        order = np.argsort(wave, kind="stable")
+        wave = wave[order]
+        arrays = tuple(None if a is None else a[order] for a in arrays)
+    return wave, arrays, dropped
+
+
+def _to_vacuum(wave, medium: str, notes: list[str]):
+    if medium == "vacuum":
+        return wave
+    from atlas.physics.airvac import air_to_vacuum_A
+
+    if medium != "air":
+        notes.append("wavelength medium unknown: treated as air above 2000 Å and converted to vacuum")
+    return np.asarray(air_to_vacuum_A(wave), dtype=np.float64)
+
+
+def prepare(ds: xr.Dataset, options: BuildOptions):
+    """Flatten a Spectrum to sorted 1-D vacuum samples with its continuum and strip plan.
+
+    Returns ``(seq, plan, notes)``: ``seq`` a dict of 1-D arrays (``wavelength``,
+    ``flux``, ``uncertainty`` or None, ``mask``, ``continuum``) in strip order.
+    """
+    notes: list[str] = []
+    medium = medium_of(ds)
+    unc_present = "uncertainty" in ds
+    c = options.continuum
+    if is_echelle(ds):
+        W = np.asarray(ds["wavelength"].values, dtype=np.float64)
+        F = np.asarray(ds["flux"].values, dtype=np.float64)
+        M = np.asarray(ds["mask"].values, dtype=bool) if "mask" in ds else ~np.isfinite(F)
+        U = np.asarray(ds["uncertainty"].values, dtype=np.float64) if unc_present else None
+        W = _to_vacuum(W, medium, notes)
+        parts, dropped = [], 0
+        for o in range(W.shape[0]):
+            w, (f, m, u), d = _sorted_1d(W[o], F[o], M[o], None if U is None else U[o])
+            dropped += d
+            if w.size:
+                parts.append((w, f, m, u))
+        if not parts:
+            raise InputError(ds.attrs.get("source_path", "spectrum"), "no sample has a finite wavelength")
+        parts.sort(key=lambda p: p[0][0])
+        lengths = np.array([p[0].size for p in parts])
+        seq = {
+            "wavelength": np.concatenate([p[0] for p in parts]),
+            "flux": np.concatenate([p[1] for p in parts]),
+            "mask": np.concatenate([p[2] for p in parts]),
+            "uncertainty": np.concatenate([p[3] for p in parts]) if unc_present else None,
+        }
+        stops = np.cumsum(lengths)
+        segments = list(zip((stops - lengths).tolist(), stops.tolist(), strict=True))
+        # Each order keeps its own blaze: its continuum is fitted on its own.
+        seq["continuum"] = fit_continuum(seq["wavelength"], seq["flux"], seq["mask"], c, segments)
+        if not options.merge_orders and options.equal_A is None and options.strip_kms is None:
+            plan = plan_orders(lengths, [p[0][0] for p in parts], [p[0][-1] for p in parts])
+            if dropped:
+                notes.append(f"{dropped} samples without a finite wavelength left out")
+            return seq, plan, notes
+        order = np.argsort(seq["wavelength"], kind="stable")
+        seq = {k: (None if v is None else v[order]) for k, v in seq.items()}
+        if not options.merge_orders:
+            notes.append("echelle orders merged because a strip width was given")
+    else:
+        w = np.asarray(ds["wavelength"].values, dtype=np.float64)
+        f = np.asarray(ds["flux"].values, dtype=np.float64)
+        m = np.asarray(ds["mask"].values, dtype=bool) if "mask" in ds else ~np.isfinite(f)
+        u = np.asarray(ds["uncertainty"].values, dtype=np.float64) if unc_present else None
+        w = _to_vacuum(w, medium, notes)
+        w, (f, m, u), dropped = _sorted_1d(w, f, m, u)
+        if w.size == 0:
+            raise InputError(ds.attrs.get("source_path", "spectrum"), "no sample has a finite wavelength")
+        seq = {"wavelength": w, "flux": f, "mask": m, "uncertainty": u}
+        seq["continuum"] = fit_continuum(w, f, m, c)
+    if dropped:
+        notes.append(f"{dropped} samples without a finite wavelength left out")
+    wave = seq["wavelength"]
+    if options.equal_A is not None:
+        plan = plan_equal_A(wave, options.equal_A, options.overlap)
+    else:
+        kms = options.strip_kms if options.strip_kms is not None else auto_strip_kms(wave)
+        plan = plan_velocity(wave, kms, options.overlap)
+    return seq, plan, notes
+
+
+def star_arrays(seq: dict, plan: StripPlan):
+    """The root group (strip, pixel) Dataset and the envelope levels of one star."""
+    pixel = plan.pixel
+    wav = gather(seq["wavelength"], plan, np.nan, np.float64)
+    flux = gather(seq["flux"], plan, np.nan, np.float32)
+    cont = gather(seq["continuum"], plan, np.nan, np.float32)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        norm = np.where(cont > 0, flux / cont, np.float32(np.nan)).astype(np.float32)
+    mask = gather(seq["mask"], plan, True, bool)
+    if seq.get("uncertainty") is not None:
+        unc = gather(seq["uncertainty"], plan, np.nan, np.float32)
+    else:
+        unc = np.full((plan.n_strips, pixel), np.nan, dtype=np.float32)
+    mask |= ~np.isfinite(flux)
+    levels = build_levels(wav, flux, norm, mask)
+    sp = ("strip", "pixel")
+    root = xr.Dataset(
+        {
+            "flux": (sp, flux),
+            "uncertainty": (sp, unc),
+            "continuum": (sp, cont),
+            "norm_flux": (sp, norm),
+            "mask": (sp, mask),
+            "strip_min_A": ("strip", np.asarray(plan.lo_A, dtype=np.float64)),
+            "strip_max_A": ("strip", np.asarray(plan.hi_A, dtype=np.float64)),
+            "strip_samples": ("strip", plan.count.astype(np.int32)),
+        },
+        coords={"wavelength": (sp, wav, {"units": "Angstrom", "medium": "vacuum"})},
+    )
+    lev_ds = []
+    for lev in levels:
+        sb = ("strip", "bin")
+        lev_ds.append(
+            xr.Dataset(
+                {k: (sb, v) for k, v in lev.items() if k != "step"},
+                attrs={"step": int(lev["step"])},
+            )
+        )
+    return root, lev_ds
+
+
+def _strips_per_chunk(pixel: int, n_strips: int) -> int:
+    return int(min(max(1, n_strips), max(1, min(64, round(CHUNK_BYTES / (4 * max(pixel, 1)))))))
+
+
+# ---------------------------------------------------------------- one star, file to store
+
+
+def _content_key(sha: str, options: BuildOptions, path: str) -> str:
+    blob = json.dumps(
+        {"sha": sha, "options": options.as_dict(), "tool": __version__, "path": os.path.abspath(path)},
+        sort_keys=True,
+    )
+    return hashlib.sha256(blob.encode()).hexdigest()
+
+
+def build_star(path: str, options: BuildOptions, atlas_url: str, sha: str, in_use: frozenset) -> dict:
+    """Build one star from a file into a new store of ``atlas_url``; returns its result.
+
+    The result holds ``record`` (catalog record, ``id`` still the bare slug),
+    ``slug`` and ``notes``.  Raises ``InputError`` for a file that cannot be read.
+    Usable serially and as a dask.distributed task.
+    """
+    from atlas.io import read
+    from atlas.measure.card import star_measurements
+
+    ds = read(path)
+    seq, plan, notes = prepare(ds, options)
+    n_samples = int(seq["wavelength"].size)
+    wmin, wmax = float(seq["wavelength"][0]), float(seq["wavelength"][-1])
+    if plan.mode == "orders":
+        wmin, wmax = float(np.min(seq["wavelength"])), float(np.max(seq["wavelength"]))
+    vac = xr.Dataset(
+        {"flux": ("sample", seq["flux"]), "mask": ("sample", seq["mask"])},
+        coords={"wavelength": ("sample", seq["wavelength"], {"medium": "vacuum"})},
+        attrs=dict(ds.attrs),
+    )
+    measurements, mnotes = star_measurements(vac, site=options.site, radec=options.radec, time=options.time)
+    notes += mnotes
+    del vac
+    root, levels = star_arrays(seq, plan)
+    del seq
+    name = str(ds.attrs.get("target") or "").strip() or os.path.splitext(os.path.basename(path))[0]
+    slug = store.slugify(name, fallback=store.slugify(os.path.basename(path)))
+    root.attrs.update(
+        {
+            "name": name,
+            "source": os.path.basename(path),
+            "source_sha256": sha,
+            "input_medium": medium_of(ds),
+            "strip_mode": plan.mode,
+            "strip_kms": plan.width if plan.mode == "velocity" else None,
+            "strip_A": plan.width if plan.mode == "equal_A" else None,
+            "overlap": options.overlap if plan.mode != "orders" else 0.0,
+            "continuum": json.dumps(options.continuum.as_dict()),
+            "lod_levels": len(levels),
+            "lod_factor": FACTOR,
+            "tool_version": __version__,
+        }
+    )
+    root.attrs = {k: v for k, v in root.attrs.items() if v is not None}
+    key = _content_key(sha, options, path)
+    sname = store.fresh_store_name(slug, key, atlas_url, set(in_use))
+    store.write_star(atlas_url, sname, root, levels, _strips_per_chunk(root.sizes["pixel"], root.sizes["strip"]))
+    if plan.mode == "velocity":
+        desc = f"{plan.n_strips} strips of {plan.width:g} km/s" + (" (chosen from the sampling)" if options.strip_kms is None else "")
+    elif plan.mode == "equal_A":
+        desc = f"{plan.n_strips} strips of {plan.width:g} Å"
+    else:
+        desc = f"{plan.n_strips} strips, one per echelle order"
+    record = {
+        "id": slug,
+        "name": name,
+        "store": sname,
+        "source": os.path.basename(path),
+        "source_sha256": sha,
+        "wavelength_min_A": wmin,
+        "wavelength_max_A": wmax,
+        "medium": medium_of(ds),
+        "samples": n_samples,
+        "strips": plan.n_strips,
+        **measurements,
+    }
+    return {"record": record, "slug": slug, "notes": notes, "describe": desc}
+
+
+def build_star_safe(path: str, options: BuildOptions, atlas_url: str, sha: str, in_use: frozenset) -> dict:
+    """:func:`build_star`, turning any failure into ``{"error": one line}`` (for many-file builds)."""
+    try:
+        return build_star(path, options, atlas_url, sha, in_use)
+    except InputError as exc:
+        return {"error": exc.reason if exc.where == path else exc.message}
+    except MemoryError:
+        return {"error": "out of memory while building this star"}
+    except Exception as exc:  # a broken file must not stop the others
+        reason = " ".join(str(exc).split()) or type(exc).__name__
+        return {"error": f"cannot build: {type(exc).__name__}: {reason[:300]}"}
+
+
+# ---------------------------------------------------------------- many stars
+
+
+def expand_inputs(patterns, base: str | None = None) -> list[str]:
+    """Files named or matched by glob patterns (relative to ``base``), sorted, without repeats."""
+    out: list[str] = []
+    for pat in patterns:
+        p = os.path.expanduser(str(pat))
+        if base is not None and not os.path.isabs(p):
+            p = os.path.join(base, p)
+        if glob.has_magic(p):
+            hits = sorted(h for h in glob.glob(p) if os.path.isfile(h))
+            if not hits:
+                raise InputError(str(pat), "no file matches this pattern")
+            out.extend(hits)
+        else:
+            if not os.path.exists(p):
+                raise InputError(str(pat), "no such file")
+            if os.path.isdir(p):
+                raise InputError(str(pat), "is a folder; give the spectrum files (e.g. folder/*.fits)")
+            out.append(p)
+    seen, uniq = set(), []
+    for p in out:
+        key = os.path.realpath(p)
+        if key not in seen:
+            seen.add(key)
+            uniq.append(p)
+    return uniq
+
+
+def _now() -> str:
+    return _dt.datetime.now(_dt.UTC).strftime("%Y-%m-%dT%H:%M:%SZ")
+
+
+@dataclass
+class BuildReport:
+    """What a build did: ids built, kept and failed (path, reason), and whether it committed."""
+
+    built: list = field(default_factory=list)
+    kept: list = field(default_factory=list)
+    failed: list = field(default_factory=list)
+    committed: bool = False
+    catalog: dict | None = None
+
+
+def _say(msg: str, out=None):
+    from tqdm import tqdm
+
+    tqdm.write(msg, file=out or sys.stdout)
+
+
+def build_atlas(
+    inputs: list[str],
+    atlas_url: str,
+    options: BuildOptions | None = None,
+    *,
+    force: bool = False,
+    workers: int = 1,
+    scheduler: str | None = None,
+    progress: bool | None = None,
+    out=None,
+    err=None,
+) -> BuildReport:
+    """Build (or update) the atlas at ``atlas_url`` from spectrum files; returns a report.
+
+    Stars whose file bytes, options and tool version are unchanged keep their store
+    (``force`` rebuilds all).  Files that fail are reported one line each on ``err``
+    and left out; the catalog is committed when at least one star is good.
+    """
+    from tqdm import tqdm
+
+    options = options or BuildOptions()
+    out = out or sys.stdout
+    err = err or sys.stderr
+    atlas_url = os.fspath(atlas_url)
+    report = BuildReport()
+    old = store.read_catalog(atlas_url)
+    in_use = frozenset(r["store"] for r in (old or {}).get("stars", []))
+    opts = options.as_dict()
+    reusable = {}
+    if old and not force and old.get("options") == opts and old.get("tool_version") == __version__:
+        for rec in old["stars"]:
+            reusable.setdefault((rec.get("source"), rec.get("source_sha256")), []).append(rec)
+
+    plan: list[tuple[str, str, dict | None]] = []  # (path, sha, reused record)
+    for path in inputs:
+        try:
+            sha = sha256_of(path)
+        except OSError as exc:
+            report.failed.append((path, f"cannot read: {exc.strerror or exc}"))
+            plan.append((path, "", None))
+            continue
+        cands = reusable.get((os.path.basename(path), sha))
+        rec = None
+        while cands:
+            c = cands.pop(0)
+            if store.store_exists(atlas_url, c["store"]):
+                rec = c
+                break
+        plan.append((path, sha, rec))
+
+    todo = [(p, s) for p, s, r in plan if r is None and s]
+    results: dict[str, dict] = {}
+    bar = tqdm(total=len(todo), unit="star", desc="building", disable=(not progress) if progress is not None else None, file=err)
+    try:
+        if todo and (workers > 1 or scheduler):
+            results = _run_dask(todo, options, atlas_url, in_use, workers, scheduler, bar)
+        else:
+            for p, s in todo:
+                results[p] = build_star_safe(p, options, atlas_url, s, in_use)
+                bar.update(1)
+    finally:
+        bar.close()
+
+    taken: set[str] = {r["id"] for _, _, r in plan if r is not None}
+    records = []
+    for path, _sha, rec in plan:
+        if rec is not None:
+            records.append(rec)
+            report.kept.append(rec["id"])
+            continue
+        res = results.get(path)
+        if res is None:
+            continue  # hashing failed, already reported
+        if "error" in res:
+            report.failed.append((path, res["error"]))
+            continue
+        r = dict(res["record"])
+        r["id"] = store.unique_id(res["slug"], taken)
+        taken.add(r["id"])
+        records.append({k: r.get(k) for k in store.RECORD_KEYS})
+        report.built.append(r["id"])
+        extra = "; ".join(res["notes"])
+        _say(f"built {r['id']} from {r['source']}: {r['samples']} samples, {res['describe']}"
+             + (f" ({extra})" if extra else ""), out)
+    for path, reason in report.failed:
+        print(f"striae: {path}: {reason}", file=err)
+    for rid in report.kept:
+        _say(f"kept {rid} (unchanged)", out)
+
+    if not records:
+        _say("nothing built: the atlas was left as it was", err)
+        return report
+    records = [{k: r.get(k) for k in store.RECORD_KEYS} for r in records]
+    for r in records:
+        for k in ("barycentric_kms", "rv_kms", "rv_err_kms", "teff_k", "snr", "resolving_power",
+                  "wavelength_min_A", "wavelength_max_A"):
+            r[k] = store.json_number(r[k])
+    catalog = {
+        "format": store.FORMAT,
+        "tool_version": __version__,
+        "built_utc": _now(),
+        "options": opts,
+        "stars": records,
+    }
+    store.write_catalog(atlas_url, catalog)
+    report.committed = True
+    report.catalog = catalog
+    store.remove_stale(atlas_url, catalog)
+    return report
+
+
+def _run_dask(todo, options, atlas_url, in_use, workers, scheduler, bar) -> dict:
+    import logging
+
+    from dask.distributed import Client, LocalCluster, as_completed
+
+    cluster = None
+    if scheduler:
+        try:
+            client = Client(scheduler, timeout="20s")
+        except (OSError, TimeoutError) as exc:
+            raise InputError("--scheduler", f"cannot reach {scheduler}: {exc}") from None
+    else:
+        cluster = LocalCluster(
+            n_workers=int(workers),
+            threads_per_worker=1,
+            processes=True,
+            dashboard_address=None,
+            silence_logs=logging.ERROR,
+        )
+        client = Client(cluster)
+    try:
+        futs = {}
+        for p, s in todo:
+            f = client.submit(build_star_safe, p, options, atlas_url, s, in_use, pure=False)
+            futs[f] = p
+        results = {}
+        for f in as_completed(list(futs)):
+            try:
+                results[futs[f]] = f.result()
+            except Exception as exc:  # a worker died: report it like a bad file
+                results[futs[f]] = {"error": f"cannot build: worker failed ({type(exc).__name__})"}
+            bar.update(1)
+        return results
+    finally:
+        client.close()
+        if cluster is not None:
+            cluster.close()
+

@@ -1,0 +1,272 @@
+"""The atlas on disk: ``atlas.json`` (the catalog, the commit point) and one Zarr store per star.
+
+Writing: each star goes to a new, content-named store ``stars/<slug>-<hash8>.zarr``;
+when all are complete the catalog is written to a temporary file and moved over
+``atlas.json`` with ``os.replace`` (one object PUT on an object store), and only then are
+stores no longer named by the catalog removed.  Readers follow only ``atlas.json``, so a
+build killed at any moment leaves the previous atlas as it was.
+
+``ATLAS`` may be a local folder or an fsspec URL (``memory://``, ``s3://``, ...).
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import re
+import threading
+import unicodedata
+import uuid
+import warnings
+
+import fsspec
+import numpy as np
+import xarray as xr
+
+from atlas.errors import InputError
+
+FORMAT = 1
+CATALOG = "atlas.json"
+STARS = "stars"
+
+#: The keys of every star record in ``atlas.json`` (../shared/DESIGN.md).
+RECORD_KEYS = (
+    "id", "name", "store", "source", "source_sha256", "wavelength_min_A", "wavelength_max_A",
+    "medium", "samples", "strips",
+    "barycentric_kms", "rv_kms", "rv_err_kms", "teff_k", "spectral_class", "snr",
+    "resolving_power", "colour_srgb",
+)
+
+ID_RE = re.compile(r"[a-z0-9][a-z0-9-]{0,63}")
+_STORE_RE = re.compile(r"stars/[a-z0-9][a-z0-9-]{0,80}\.zarr")
+
+
+# ---------------------------------------------------------------- ids
+
+
+def slugify(text: str, fallback: str = "star") -> str:
+    """A star id from a name: lower case ASCII letters, digits and hyphens, at most 64 characters."""
+    s = unicodedata.normalize("NFKD", str(text)).encode("ascii", "ignore").decode()
+    s = re.sub(r"[^a-z0-9]+", "-", s.lower()).strip("-")
+    s = s[:64].rstrip("-")
+    return s or fallback
+
+
+def unique_id(slug: str, taken: set[str]) -> str:
+    """``slug``, or ``slug-2``, ``slug-3``, ... (at most 64 characters) if already taken."""
+    if slug not in taken:
+        return slug
+    k = 2
+    while True:
+        tail = f"-{k}"
+        cand = slug[: 64 - len(tail)].rstrip("-") + tail
+        if cand not in taken:
+            return cand
+        k += 1
+
+
+def check_id(star_id, where: str = "star") -> str:
+    """Validate a star id given by a user (a slug, never a path); returns it."""
+    if not isinstance(star_id, str) or not ID_RE.fullmatch(star_id):
+        raise InputError(where, f"not a star id (lower-case letters, digits, hyphens): {str(star_id)[:80]!r}")
+    return star_id
+
+
+# ---------------------------------------------------------------- paths
+
+
+def _fs(url: str):
+    fs, path = fsspec.core.url_to_fs(os.fspath(url))
+    return fs, path.rstrip("/")
+
+
+def is_local(url: str) -> bool:
+    fs, _ = _fs(url)
+    return "file" in (fs.protocol if isinstance(fs.protocol, tuple) else (fs.protocol,))
+
+
+def join(url: str, *parts: str) -> str:
+    """Join an atlas URL or path with relative parts (always '/')."""
+    base = os.fspath(url).rstrip("/")
+    return "/".join([base, *parts])
+
+
+def store_url(atlas_url: str, store: str) -> str:
+    """Full URL of a star store named in the catalog; refuses anything but ``stars/<name>.zarr``."""
+    if not isinstance(store, str) or not _STORE_RE.fullmatch(store):
+        raise InputError(join(atlas_url, CATALOG), f"bad store name {str(store)[:80]!r}")
+    return join(atlas_url, store)
+
+
+def store_name(slug: str, key: str) -> str:
+    """``stars/<slug>-<hash8>.zarr`` for a content key (the sha256 of input and options)."""
+    return f"{STARS}/{slug}-{key[:8]}.zarr"
+
+
+def fresh_store_name(slug: str, key: str, atlas_url: str, in_use: set[str]) -> str:
+    """A content-named store path not used by the current catalog (a salt is added if it is)."""
+    name = store_name(slug, key)
+    while name in in_use:
+        name = store_name(slug, uuid.uuid4().hex)
+    return name
+
+
+# ---------------------------------------------------------------- writing
+
+
+def write_star(atlas_url: str, name: str, root: xr.Dataset, levels: list[xr.Dataset], strips_per_chunk: int) -> None:
+    """Write one star store (root group plus ``lod1``, ``lod2``, ... groups), Zarr v3, consolidated.
+
+    Overwrites whatever is at that path (it is never a path the current catalog names).
+    """
+    url = join(atlas_url, name)
+    fs, path = _fs(url)
+    if fs.exists(path):
+        fs.rm(path, recursive=True)
+    pixel = root.sizes["pixel"]
+    enc = {v: {"chunks": (strips_per_chunk, pixel)} for v in root.data_vars if root[v].dims == ("strip", "pixel")}
+    enc["wavelength"] = {"chunks": (strips_per_chunk, pixel)}
+    root.to_zarr(url, mode="w", zarr_format=3, consolidated=False, encoding=enc)
+    for j, lev in enumerate(levels, start=1):
+        nb = lev.sizes["bin"]
+        lenc = {v: {"chunks": (min(lev.sizes["strip"], strips_per_chunk * 4), nb)} for v in lev.data_vars}
+        lev.to_zarr(url, group=f"lod{j}", mode="w", zarr_format=3, consolidated=False, encoding=lenc)
+    import zarr
+
+    with warnings.catch_warnings():
+        # Consolidated metadata is a zarr-python extension to Zarr v3; we rely on it on purpose.
+        warnings.filterwarnings("ignore", message="Consolidated metadata", category=UserWarning)
+        zarr.consolidate_metadata(url, zarr_format=3)
+
+
+def read_catalog(atlas_url: str) -> dict | None:
+    """The catalog of an atlas, or None if it has none yet."""
+    fs, path = _fs(atlas_url)
+    cpath = f"{path}/{CATALOG}"
+    if not fs.exists(cpath):
+        return None
+    try:
+        with fs.open(cpath, "rb") as fh:
+            cat = json.loads(fh.read().decode("utf-8"))
+    except (OSError, ValueError, UnicodeDecodeError) as exc:
+        raise InputError(join(atlas_url, CATALOG), f"cannot read the catalog ({exc})") from None
+    if not isinstance(cat, dict) or cat.get("format") != FORMAT or not isinstance(cat.get("stars"), list):
+        raise InputError(join(atlas_url, CATALOG), f"not a format-{FORMAT} atlas catalog")
+    return cat
+
+
+def write_catalog(atlas_url: str, catalog: dict) -> None:
+    """Commit: write ``atlas.json`` atomically (temporary file + ``os.replace``; one PUT remotely)."""
+    data = (json.dumps(catalog, indent=1, allow_nan=False) + "\n").encode("utf-8")
+    fs, path = _fs(atlas_url)
+    if is_local(atlas_url):
+        os.makedirs(path, exist_ok=True)
+        tmp = os.path.join(path, f".{CATALOG}.{uuid.uuid4().hex}.tmp")
+        try:
+            with open(tmp, "wb") as fh:
+                fh.write(data)
+                fh.flush()
+                os.fsync(fh.fileno())
+            os.replace(tmp, os.path.join(path, CATALOG))
+        finally:
+            if os.path.exists(tmp):
+                os.remove(tmp)
+        try:  # make the rename itself durable
+            dfd = os.open(path, os.O_RDONLY)
+            try:
+                os.fsync(dfd)
+            finally:
+                os.close(dfd)
+        except OSError:
+            pass
+    else:
+        fs.pipe_file(f"{path}/{CATALOG}", data)
+
+
+def remove_stale(atlas_url: str, catalog: dict) -> list[str]:
+    """Remove stores under ``stars/`` that the (already committed) catalog does not name."""
+    fs, path = _fs(atlas_url)
+    keep = {r["store"] for r in catalog.get("stars", [])}
+    removed = []
+    spath = f"{path}/{STARS}"
+    if not fs.exists(spath):
+        return removed
+    for entry in fs.ls(spath, detail=False):
+        name = f"{STARS}/{entry.rstrip('/').rsplit('/', 1)[-1]}"
+        if name.endswith(".zarr") and name not in keep:
+            fs.rm(entry, recursive=True)
+            removed.append(name)
+    return removed
+
+
+def store_exists(atlas_url: str, name: str) -> bool:
+    fs, path = _fs(join(atlas_url, name))
+    return fs.exists(f"{path}/zarr.json")
+
+
+# ---------------------------------------------------------------- reading
+
+
+_open_lock = threading.Lock()
+_star_cache: dict = {}
+
+
+class Atlas:
+    """An opened atlas: ``catalog`` (dict), ``stars`` (records), ``star(id)`` (lazy Dataset)."""
+
+    def __init__(self, url: str, catalog: dict):
+        self.url = url
+        self.catalog = catalog
+        self.stars = list(catalog["stars"])
+        self._by_id = {}
+        for rec in self.stars:
+            check_id(rec.get("id"), join(url, CATALOG))
+            store_url(url, rec.get("store"))
+            self._by_id[rec["id"]] = rec
+
+    @property
+    def ids(self) -> list[str]:
+        return [r["id"] for r in self.stars]
+
+    def record(self, star_id: str) -> dict:
+        """The catalog record of a star; InputError for an unknown or malformed id."""
+        check_id(star_id)
+        rec = self._by_id.get(star_id)
+        if rec is None:
+            raise InputError("star", f"no star {star_id!r} in this atlas")
+        return rec
+
+    def star(self, star_id: str) -> xr.Dataset:
+        """The star's store opened lazily (``xarray.open_zarr``, consolidated), cached per process."""
+        rec = self.record(star_id)
+        url = store_url(self.url, rec["store"])
+        with _open_lock:
+            ds = _star_cache.get(url)
+            if ds is None:
+                ds = xr.open_zarr(url, consolidated=True)
+                ds.encoding["striae_store"] = url
+                _star_cache[url] = ds
+        return ds
+
+    def level(self, star_id: str, j: int) -> xr.Dataset:
+        """Envelope level ``j`` (1, 2, ...) of a star as a lazy Dataset."""
+        url = store_url(self.url, self.record(star_id)["store"])
+        return xr.open_zarr(url, group=f"lod{int(j)}", consolidated=True)
+
+
+def open_atlas(path) -> Atlas:
+    """Open an atlas folder or URL; InputError if it has no readable catalog."""
+    url = os.fspath(path)
+    cat = read_catalog(url)
+    if cat is None:
+        raise InputError(url, f"no {CATALOG} here: not a built atlas")
+    return Atlas(url, cat)
+
+
+def json_number(x):
+    """A finite float for JSON, else None."""
+    try:
+        v = float(x)
+    except (TypeError, ValueError):
+        return None
+    return v if np.isfinite(v) else None
