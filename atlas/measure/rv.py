@@ -575,21 +575,14 @@ def measure_rv(
         return result
     rv = np.array([s.rv_kms for s in ok])
     er = np.array([s.err_kms for s in ok])
-    use = np.ones(rv.size, dtype=bool)
-    for _ in range(5):
-        w = 1.0 / er[use] ** 2
-        mean = float((w * rv[use]).sum() / w.sum())
-        err = math.sqrt(1.0 / w.sum())
-        chi = (rv - mean) / np.sqrt(er**2 + 0.0)
-        if use.sum() >= 3:
-            chi2r = float((chi[use] ** 2).sum() / (use.sum() - 1))
-            scale = max(1.0, math.sqrt(chi2r))
-        else:
-            scale = 1.0
-        new = np.abs(chi) <= clip_sigma * scale
-        if new.sum() == 0 or np.array_equal(new, use):
-            break
-        use = new
+    # robust clip: residuals from the weighted median in units of each strip's error,
+    # the threshold scaled by their median absolute deviation when that exceeds 1
+    order_ = np.argsort(rv)
+    cw = np.cumsum(1.0 / er[order_] ** 2)
+    centre = float(rv[order_][np.searchsorted(cw, 0.5 * cw[-1])])
+    z = (rv - centre) / er
+    scale = max(1.0, 1.482602 * float(np.median(np.abs(z)))) if rv.size >= 3 else np.inf
+    use = np.abs(z) <= clip_sigma * scale
     for s, u_ in zip(ok, use, strict=True):
         if not u_:
             s.used, s.note = False, "outlier (sigma clip)"
@@ -649,3 +642,46 @@ def photon_limit_kms(wave_A, model_flux, sigma) -> float:
     s = np.broadcast_to(np.asarray(sigma, dtype=np.float64), a.shape)
     deriv = np.gradient(a, np.log(w))  # lambda dA/dlambda
     return float(C_KMS / math.sqrt(np.sum(deriv**2 / s**2)))
+
+
+def rv_of_spectrum(ds, lines=None, *, site=None, radec=None, time=None,
+                   v_min_kms: float = -300.0, v_max_kms: float = 300.0,
+                   continuum=None) -> RVResult:
+    """Radial velocity of a Spectrum Dataset, with the barycentric correction when known.
+
+    Uses the shipped line list unless ``lines`` (a DataFrame of the same columns) is
+    given, in the column matching the spectrum's medium (``unknown`` is read as air,
+    noted in ``note``).  ``site``/``radec``/``time`` override the file as in
+    :func:`atlas.physics.barycentric.correction_for`.  ``rv_kms`` is barycentric:
+    v = v_obs + v_bary + v_obs v_bary / c.
+
+    References
+    ----------
+    Wright & Eastman (2014), PASP 126, 838.
+    """
+    from atlas.physics.barycentric import apply_kms, correction_for
+    from atlas.spectrum import medium_of
+
+    if lines is None:
+        from atlas.lines import load_lines
+
+        lines = load_lines()
+    medium = medium_of(ds)
+    lw, wt = line_mask(lines, "vacuum" if medium == "vacuum" else "air")
+    unc = ds["uncertainty"].values if "uncertainty" in ds else None
+    mask = ds["mask"].values if "mask" in ds else None
+    res = measure_rv(ds["wavelength"].values, ds["flux"].values, unc, mask,
+                     line_wave_A=lw, line_weight=wt, continuum=continuum,
+                     v_min_kms=v_min_kms, v_max_kms=v_max_kms)
+    notes = [res.note] if res.note else []
+    if medium == "unknown":
+        notes.append("wavelength medium unknown: read as air")
+    bary, missing = correction_for(ds, site=site, radec=radec, time=time)
+    res.barycentric_kms = bary
+    if bary is None:
+        notes.append("no barycentric correction: missing " + ", ".join(missing))
+    elif res.rv_obs_kms is not None:
+        res.rv_kms = float(apply_kms(res.rv_obs_kms, bary))
+    res.vsini_rough_kms = vsini_rough(res.line_fwhm_kms, ds.attrs.get("resolving_power"))
+    res.note = "; ".join(notes)
+    return res

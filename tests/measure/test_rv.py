@@ -1,0 +1,101 @@
+"""Radial velocities of synthetic stars made from the shipped line list."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from atlas.measure import rv
+from atlas.spectrum import make_spectrum
+
+DEPTH_OF_STRENGTH = {1: 0.7, 2: 0.45, 3: 0.25, 4: 0.12}
+
+
+def star_lines(lines, lo=4400.0, hi=6800.0):
+    """Vacuum positions and depths of the atomic stellar lines between lo and hi (Å)."""
+    wave, _ = rv.line_mask(lines, "vacuum")
+    sel = lines[(lines.kind == "atomic") & ~lines.telluric.astype(str).str.lower().eq("true")]
+    sel = sel[(sel.vacuum_A > lo) & (sel.vacuum_A < hi)]
+    depth = np.array([DEPTH_OF_STRENGTH[int(s)] for s in sel.strength])
+    assert wave.size > 0
+    return sel.vacuum_A.to_numpy(), depth
+
+
+@pytest.mark.parametrize("rv_true", [-300.0, -123.4, 0.0, 17.9, 211.0, 300.0])
+def test_injected_velocity_recovered_within_3_sigma(synth, lines, rv_true):
+    # Doppler recovery of an injected shift (relativistic Doppler, Einstein 1905, as
+    # astropy's doppler_relativistic); 3-sigma agreement with the reported error.
+    rest, depth = star_lines(lines)
+    wave = synth.log_grid(4500.0, 6700.0, 60_000)
+    flux, sigma, _ = synth.make_star(wave, rest, depth, rv_kms=rv_true, sigma_kms=4.0,
+                                     snr=80, teff_k=6000.0, rng=int(abs(rv_true) * 10) + 1)
+    res = rv.measure_rv(wave, flux, sigma, line_wave_A=rest)
+    assert res.rv_obs_kms is not None, res.note
+    assert abs(res.rv_obs_kms - rv_true) < 3 * res.rv_err_kms, (res.rv_obs_kms, res.rv_err_kms)
+    assert res.rv_err_kms < 0.5
+
+
+def test_error_is_realistic_over_noise_realisations(synth, lines):
+    # The reported error should match the scatter over realisations (within 35 % for 40
+    # draws) and approach the photon-noise limit of Bouchy, Pepe & Queloz (2001).
+    rest, depth = star_lines(lines)
+    wave = synth.log_grid(4500.0, 6700.0, 40_000)
+    rng = np.random.default_rng(3)
+    got, errs = [], []
+    for _ in range(40):
+        flux, sigma, _ = synth.make_star(wave, rest, depth, rv_kms=25.0, sigma_kms=4.0,
+                                         snr=60, rng=rng)
+        r = rv.measure_rv(wave, flux, sigma, line_wave_A=rest)
+        got.append(r.rv_obs_kms)
+        errs.append(r.rv_err_kms)
+    scatter = np.std(got, ddof=1)
+    assert scatter == pytest.approx(np.median(errs), rel=0.35)
+    assert abs(np.mean(got) - 25.0) < 3 * scatter / np.sqrt(len(got)) + 0.3 * scatter
+
+
+def test_echelle_orders_act_as_strips(synth, lines):
+    rest, depth = star_lines(lines)
+    wave = synth.log_grid(4500.0, 6700.0, 60_000).reshape(6, 10_000)
+    flux, sigma, _ = synth.make_star(wave.ravel(), rest, depth, rv_kms=-42.0, snr=100, rng=5)
+    res = rv.measure_rv(wave, flux.reshape(6, -1), sigma.reshape(6, -1), line_wave_A=rest)
+    assert len(res.strips) == 6
+    assert abs(res.rv_obs_kms + 42.0) < 3 * res.rv_err_kms
+
+
+def test_outlier_strip_is_flagged(synth, lines):
+    # A strip whose lines are displaced (a wavelength-solution fault) must be clipped
+    # (sigma clipping, common practice).
+    rest, depth = star_lines(lines)
+    wave = synth.log_grid(4500.0, 6700.0, 60_000).reshape(6, 10_000)
+    flux, sigma, _ = synth.make_star(wave.ravel(), rest, depth, rv_kms=10.0, snr=150, rng=9)
+    wave_bad = wave.copy()
+    wave_bad[2] *= 1 + 3.0 / rv.C_KMS  # order 2 off by 3 km/s
+    res = rv.measure_rv(wave_bad, flux.reshape(6, -1), sigma.reshape(6, -1), line_wave_A=rest)
+    flagged = [s for s in res.strips if not s.used]
+    assert len(flagged) == 1 and flagged[0].lo_A == pytest.approx(wave_bad[2][0])
+    assert abs(res.rv_obs_kms - 10.0) < 3 * res.rv_err_kms
+
+
+def test_featureless_spectrum_gives_no_velocity(synth, lines):
+    rest, _ = star_lines(lines)
+    wave = synth.log_grid(4500.0, 6700.0, 20_000)
+    flux = 1.0 + np.random.default_rng(1).normal(0, 0.01, wave.size)
+    res = rv.measure_rv(wave, flux, np.full(wave.size, 0.01), line_wave_A=rest)
+    assert res.rv_obs_kms is None and "no significant" in res.note
+
+
+def test_dataset_wrapper_applies_barycentric_correction(synth, lines):
+    # v = v_obs + v_bary + v_obs v_bary / c (Wright & Eastman 2014, PASP 126, 838, eq. 11)
+    rest, depth = star_lines(lines)
+    wave = synth.log_grid(4500.0, 6700.0, 40_000)
+    flux, sigma, _ = synth.make_star(wave, rest, depth, rv_kms=30.0, snr=100, rng=2)
+    ds = make_spectrum(wave, flux, sigma, medium="vacuum", obs_time_utc="2024-03-01T03:00:00",
+                       ra_deg=101.3, dec_deg=-16.7, site_lat_deg=-30.0, site_lon_deg=-70.7,
+                       site_height_m=2200.0)
+    res = rv.rv_of_spectrum(ds, lines)
+    assert res.barycentric_kms is not None
+    expect = res.rv_obs_kms + res.barycentric_kms + res.rv_obs_kms * res.barycentric_kms / rv.C_KMS
+    assert res.rv_kms == pytest.approx(expect, abs=1e-9)
+    ds2 = make_spectrum(wave, flux, sigma, medium="vacuum")
+    res2 = rv.rv_of_spectrum(ds2, lines)
+    assert res2.rv_kms is None and "missing time" in res2.note
