@@ -1,0 +1,206 @@
+"""Line identification: absorption features found above the noise, matched to the line list.
+
+1. The normalised depth ``1 - F/C`` is filtered with a Gaussian of the star's line
+   width (a matched filter); its amplitude over its own error is each sample's
+   significance.  Local maxima above ``min_sigma`` are the features.
+2. Each feature gets a Gaussian fit (scipy curve_fit): observed wavelength, depth,
+   width, equivalent width (depth * sigma * sqrt(2 pi)) and their errors.
+3. Stellar lines of the list are moved by the star's observed radial velocity;
+   telluric lines stay where they are (the observer's frame).  A feature matches the
+   nearest listed line within a tolerance that adds in quadrature 3 times the
+   feature's position error, 3 times the RV error, and a quarter of the line FWHM
+   (blends, list accuracy); strong lines win ties.  ``quality`` = 1 - offset/tolerance.
+4. Features nothing in the list explains are returned apart, most significant first.
+
+References
+----------
+Turin, G. L. (1960), IRE Trans. Inf. Theory 6, 311 (the matched filter);
+relativistic Doppler shift as in :mod:`atlas.physics.doppler`.
+"""
+
+from __future__ import annotations
+
+import math
+import warnings
+
+import numpy as np
+import pandas as pd
+from scipy import ndimage, optimize, signal
+
+from atlas.measure.rv import C_KMS, FWHM_PER_SIGMA, der_noise, normalise
+
+COLUMNS = (
+    "observed_A",
+    "observed_err_A",
+    "rest_A",
+    "species",
+    "kind",
+    "depth",
+    "depth_err",
+    "ew_mA",
+    "ew_err_mA",
+    "fwhm_kms",
+    "offset_kms",
+    "quality",
+    "significance",
+)
+
+
+def _gauss(x, d, mu, s):
+    return 1.0 - d * np.exp(-0.5 * ((x - mu) / s) ** 2)
+
+
+def find_features(wave_A, norm_flux, sigma, *, line_fwhm_kms: float, min_sigma: float = 5.0,
+                  max_features: int = 5000) -> pd.DataFrame:
+    """Absorption features of a normalised 1-D spectrum (sorted wavelengths, Å).
+
+    ``sigma`` is the noise of ``norm_flux`` (array or number); ``line_fwhm_kms`` the
+    expected line FWHM.  Returns a DataFrame with ``observed_A``, ``observed_err_A``,
+    ``depth``, ``depth_err``, ``ew_mA``, ``ew_err_mA``, ``fwhm_kms``, ``significance``.
+    """
+    w = np.asarray(wave_A, dtype=np.float64)
+    f = np.asarray(norm_flux, dtype=np.float64)
+    s = np.broadcast_to(np.asarray(sigma, dtype=np.float64), f.shape).copy()
+    good = np.isfinite(w) & np.isfinite(f) & np.isfinite(s) & (s > 0)
+    d = np.where(good, 1.0 - f, 0.0)
+    ivar = np.where(good, 1.0 / np.where(good, s, 1.0) ** 2, 0.0)
+    cols = ["observed_A", "observed_err_A", "depth", "depth_err", "ew_mA", "ew_err_mA",
+            "fwhm_kms", "significance"]
+    if good.sum() < 10:
+        return pd.DataFrame(columns=cols)
+    x = np.log(np.where(w > 0, w, 1.0))
+    pix_kms = float(np.median(np.diff(x[good]))) * C_KMS
+    sig_pix = max(line_fwhm_kms / FWHM_PER_SIGMA / pix_kms, 0.5)
+    half = int(math.ceil(4 * sig_pix))
+    k = np.exp(-0.5 * (np.arange(-half, half + 1) / sig_pix) ** 2)
+    num = ndimage.correlate1d(d * ivar, k, mode="constant")
+    den = ndimage.correlate1d(ivar, k**2, mode="constant")
+    with np.errstate(divide="ignore", invalid="ignore"):
+        amp = np.where(den > 0, num / den, 0.0)
+        signif = np.where(den > 0, amp * np.sqrt(den), 0.0)
+    peaks, props = signal.find_peaks(signif, height=min_sigma, distance=max(1, int(sig_pix)))
+    if peaks.size > max_features:
+        peaks = peaks[np.argsort(props["peak_heights"])[::-1][:max_features]]
+        peaks.sort()
+    rows = []
+    win = int(math.ceil(1.5 * FWHM_PER_SIGMA * sig_pix / 2)) + 2
+    for p in peaks:
+        a, b = max(0, p - win), min(w.size, p + win + 1)
+        sel = good[a:b]
+        if sel.sum() < 5:
+            continue
+        xx, yy, ss = w[a:b][sel], f[a:b][sel], s[a:b][sel]
+        s0 = w[p] * sig_pix * pix_kms / C_KMS
+        p0 = (max(amp[p], 1e-3), w[p], s0)
+        try:
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore")
+                popt, pcov = optimize.curve_fit(_gauss, xx, yy, p0=p0, sigma=ss,
+                                                absolute_sigma=True, maxfev=400)
+        except (RuntimeError, ValueError):
+            continue
+        dep, mu, sg = popt
+        sg = abs(sg)
+        if not (np.all(np.isfinite(pcov)) and dep > 0 and xx[0] <= mu <= xx[-1]):
+            continue
+        ed, emu, esg = np.sqrt(np.diag(pcov))
+        ew = dep * sg * math.sqrt(2 * math.pi)
+        # error of d * s with their covariance
+        var_ew = 2 * math.pi * (sg**2 * pcov[0, 0] + dep**2 * pcov[2, 2] + 2 * dep * sg * pcov[0, 2])
+        rows.append((mu, emu, dep, ed, ew * 1000.0, math.sqrt(max(var_ew, 0.0)) * 1000.0,
+                     FWHM_PER_SIGMA * sg / mu * C_KMS, float(signif[p])))
+    return pd.DataFrame(rows, columns=cols)
+
+
+def identify(features: pd.DataFrame, lines: pd.DataFrame, *, rv_obs_kms: float,
+             rv_err_kms: float = 0.0, line_fwhm_kms: float = 10.0,
+             medium: str = "vacuum") -> tuple[pd.DataFrame, pd.DataFrame]:
+    """Match features to the line list; returns (identified, unidentified) DataFrames.
+
+    ``rv_obs_kms`` is the star's velocity in the observer's frame (before the
+    barycentric correction), ``medium`` the medium of the feature wavelengths.
+    Identified rows carry :data:`COLUMNS`; unidentified rows the feature columns,
+    sorted by significance (highest first).
+    """
+    col = "vacuum_A" if medium == "vacuum" else "air_A"
+    lw = lines[col].to_numpy(dtype=np.float64)
+    tell = lines["telluric"].astype(str).str.lower().isin(["true", "1"]).to_numpy() | (
+        lines["kind"].astype(str) == "telluric").to_numpy()
+    beta = rv_obs_kms / C_KMS
+    factor = math.sqrt((1 + beta) / (1 - beta))
+    expected = np.where(tell, lw, lw * factor)
+    order = np.argsort(expected)
+    expected, lw, tell = expected[order], lw[order], tell[order]
+    species = lines["species"].to_numpy()[order]
+    kind = lines["kind"].astype(str).to_numpy()[order]
+    strength = lines["strength"].to_numpy(dtype=np.float64)[order]
+    ident, unid = [], []
+    for row in features.itertuples(index=False):
+        pos_kms = row.observed_err_A / row.observed_A * C_KMS
+        tol = math.sqrt((3 * pos_kms) ** 2 + (3 * rv_err_kms) ** 2 + (0.25 * line_fwhm_kms) ** 2)
+        lo = np.searchsorted(expected, row.observed_A * (1 - 1.2 * tol / C_KMS))
+        hi = np.searchsorted(expected, row.observed_A * (1 + 1.2 * tol / C_KMS))
+        best = None
+        for j in range(lo, hi):
+            off = (row.observed_A / expected[j] - 1.0) * C_KMS
+            if abs(off) > tol:
+                continue
+            score = abs(off) / tol + 0.05 * (strength[j] - 1)
+            if best is None or score < best[0]:
+                best = (score, j, off)
+        base = row._asdict()
+        if best is None:
+            unid.append(base)
+            continue
+        _, j, off = best
+        rest = lw[j]
+        ident.append({
+            **base,
+            "rest_A": rest,
+            "species": species[j],
+            "kind": "telluric" if tell[j] else kind[j],
+            "offset_kms": off,
+            "quality": 1.0 - abs(off) / tol,
+        })
+    ident_df = pd.DataFrame(ident, columns=list(COLUMNS))
+    unid_df = pd.DataFrame(unid, columns=list(features.columns))
+    if len(unid_df):
+        unid_df = unid_df.sort_values("significance", ascending=False, ignore_index=True)
+    return ident_df, unid_df
+
+
+def identify_spectrum(wave_A, flux, lines, *, rv_obs_kms: float, rv_err_kms: float = 0.0,
+                      line_fwhm_kms: float = 10.0, uncertainty=None, mask=None, continuum=None,
+                      normalised: bool = False, medium: str = "vacuum", min_sigma: float = 5.0):
+    """Find and identify the absorption lines of a 1-D spectrum: (identified, unidentified).
+
+    The continuum is ``continuum``, or none when ``normalised``, else fitted by
+    :func:`atlas.measure.rv.normalise`.  Without ``uncertainty`` the noise comes from
+    DER_SNR (Stoehr et al. 2008, ASP Conf. Ser. 394, 505) in blocks of 2000 samples.
+    """
+    w = np.asarray(wave_A, dtype=np.float64).ravel()
+    f = np.asarray(flux, dtype=np.float64).ravel()
+    order = np.argsort(w, kind="stable")
+    w, f = w[order], f[order]
+    bad = ~np.isfinite(f)
+    if mask is not None:
+        bad |= np.asarray(mask, dtype=bool).ravel()[order]
+    if normalised:
+        c = np.ones_like(f)
+    elif continuum is not None:
+        c = np.asarray(continuum, dtype=np.float64).ravel()[order]
+    else:
+        c = normalise(w, f, bad)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        fn = np.where(bad | ~(c > 0), np.nan, f / c)
+    if uncertainty is not None:
+        with np.errstate(divide="ignore", invalid="ignore"):
+            sn = np.asarray(uncertainty, dtype=np.float64).ravel()[order] / c
+    else:
+        sn = np.empty_like(fn)
+        for j in range(0, fn.size, 2000):
+            blk = fn[j : j + 2000]
+            sn[j : j + 2000] = der_noise(blk[np.isfinite(blk)]) if np.isfinite(blk).sum() > 20 else np.nan
+    feats = find_features(w, fn, sn, line_fwhm_kms=line_fwhm_kms, min_sigma=min_sigma)
+    return identify(feats, lines, rv_obs_kms=rv_obs_kms, rv_err_kms=rv_err_kms,
+                    line_fwhm_kms=line_fwhm_kms, medium=medium)
