@@ -242,7 +242,7 @@ def _numbers(path, lines, header_at, delim, ncol) -> np.ndarray:
         if n != ncol:
             raise InputError(
                 path,
-                f"length mismatch: line {i + 1} has {n} values, the header names {ncol} columns",
+                f"length mismatch: line {i + 1} has {n} value(s), the header names {ncol} columns",
             )
         rows.append(s)
     if not rows:

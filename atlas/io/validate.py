@@ -134,7 +134,7 @@ def check_wavelengths(wave, path, what: str = "wavelengths") -> bool:
         i = int(np.flatnonzero(bad)[0])
         raise InputError(
             path,
-            f"non-finite {what} (NaN or infinite) at {int(bad.sum())} samples, first at sample {i}",
+            f"non-finite {what} (NaN or infinite) at sample {i} ({int(bad.sum())} in all)",
         )
     d = np.diff(w)
     same = d == 0
