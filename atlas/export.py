@@ -383,10 +383,12 @@ def _own_intervals(smin: np.ndarray, smax: np.ndarray) -> tuple[np.ndarray, np.n
 
 
 def plan_pieces(view: ExportView, fmap: FrameMap, smin: np.ndarray, smax: np.ndarray,
-                *, whole_page: int | None = None) -> list[Piece]:
+                *, whole_page: int | None = None,
+                extent: tuple[float | None, float | None] = (None, None)) -> list[Piece]:
     """The strips to draw for a view (see the module docstring), in stored Å.
 
     ``whole_page``: with no range, draw only the stored strips of that page (HTML).
+    ``extent``: the first and last sample's stored Å, when known (else strip edges).
     """
     ok = np.isfinite(smin) & np.isfinite(smax) & (smax > smin)
     idx = np.flatnonzero(ok)
@@ -404,6 +406,8 @@ def plan_pieces(view: ExportView, fmap: FrameMap, smin: np.ndarray, smax: np.nda
 
     lo_A, hi_A = (float(v) for v in fmap.from_display_A([view.lo, view.hi]))
     first, last = float(smin[idx].min()), float(smax[idx].max())
+    if extent[0] is not None and extent[1] is not None and extent[0] < extent[1]:
+        first, last = max(first, extent[0]), min(last, extent[1])
     if hi_A <= first or lo_A >= last:
         a, b = fmap.to_display_A([first, last])
         raise InputError("lo/hi", f"{view.lo:g}..{view.hi:g} Å ({fmap.medium}, {fmap.frame} "
@@ -642,14 +646,17 @@ def prepare(atlas_path, view: ExportView, *, html_page: int | None = None,
     """Open the star, check the view against it, and plan the strips to draw."""
     star = _open_star(atlas_path, view.star)
     fmap = frame_for(view, star.record)
-    pieces = plan_pieces(view, fmap, star.strip_min_A, star.strip_max_A, whole_page=html_page)
+    extent = (_finite_or_none(star.record.get("wavelength_min_A")),
+              _finite_or_none(star.record.get("wavelength_max_A")))
+    pieces = plan_pieces(view, fmap, star.strip_min_A, star.strip_max_A, whole_page=html_page,
+                         extent=extent)
     if not pieces:
         raise InputError("lo/hi", "the range holds no recorded samples (it falls in a gap)")
     lo_A = min(p.xlim_A[0] for p in pieces)
     hi_A = max(p.xlim_A[1] for p in pieces)
     markers = line_markers(view, fmap, lo_A, hi_A, lines_path)
-    data_lo = min(p.lo_A for p in pieces)
-    data_hi = max(p.hi_A for p in pieces)
+    data_lo = max(min(p.lo_A for p in pieces), extent[0] or 0.0)
+    data_hi = min(max(p.hi_A for p in pieces), extent[1] or math.inf)
     lo_d, hi_d = (float(v) for v in fmap.to_display([data_lo, data_hi]))
     text = page_text(view, star, fmap, lo_d, hi_d)
     return Prepared(view, star, fmap, pieces, markers, mark_bands(view, fmap), text)

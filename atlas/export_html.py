@@ -41,7 +41,7 @@ from atlas.export_parts import (
 #: Plot width assumed when thinning labels, CSS pixels.
 PLOT_WIDTH_PX = 1100
 STRIP_HEIGHT_PX = 230
-LABEL_PX = 10  # label font size; labels are turned 90 degrees
+LABEL_PX = 9  # label font size; labels are turned 90 degrees
 _STELLAR = "#1f4e8c"
 _TELLURIC = "#7a7a7a"
 _MARK = "#e8b33c"
@@ -57,7 +57,7 @@ def _y_range(strip: StripData, normalized: bool) -> tuple[float, float]:
         lo, hi = min(lo, 0.0), min(max(hi, 1.05), 2.0)
     span = hi - lo if hi > lo else max(abs(hi), 1.0) * 0.1
     # Room above the spectrum for the line ticks and labels.
-    return lo - 0.04 * span, hi + 0.45 * span
+    return lo - 0.04 * span, hi + 0.75 * span
 
 
 def _header_html(text: PageText, marks: Sequence[MarkBand], unit_word: str) -> str:
