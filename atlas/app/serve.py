@@ -1,0 +1,58 @@
+"""The server: one Panel app at ``/`` that reads the atlas and keeps the view in the URL.
+
+Each browser session gets its own :class:`~atlas.app.state.ViewState` and
+:class:`~atlas.app.viewer.Viewer`; nothing a session relies on is kept per process
+(the atlas data caches in :mod:`atlas.app.data` are only caches), so several processes
+(``--procs``) can serve the same folder.
+"""
+
+from __future__ import annotations
+
+from urllib.parse import parse_qsl, urlencode
+
+import panel as pn
+from bokeh.models import CustomJS
+
+from atlas.app.data import open_view_atlas
+from atlas.app.state import URL_PARAMS, ViewState, parse_query, to_query
+from atlas.app.viewer import KEYS_JS, Viewer
+
+TITLE = "Striae atlas"
+
+
+def create_session(atlas_path, query: str | None = None):
+    """Build one session's view.  ``query`` (``?a=b&...``) defaults to the browser's URL."""
+    data = open_view_atlas(atlas_path)
+    loc = pn.state.location if pn.state.curdoc is not None else None
+    if query is None:
+        query = loc.search if loc is not None and loc.search else ""
+    raw = dict(parse_qsl(query.lstrip("?"), keep_blank_values=True))
+    state = ViewState(name="view")
+    values, notices = parse_query(raw, data.strips_of())
+    state.param.update(**values)
+    if not data.star_ids:
+        return pn.pane.Alert("This atlas holds no stars yet.", alert_type="warning")
+    viewer = Viewer(data, state, notices)
+    if loc is not None and pn.state.curdoc is not None and pn.state.curdoc.session_context is not None:
+        # Replace the incoming query by its validated form before syncing, so that
+        # the sync never applies a value we refused; then mirror the state both ways.
+        canon = "?" + urlencode(to_query(state))
+        if canon != (loc.search or ""):
+            loc.search = canon
+        loc.sync(state, list(URL_PARAMS), on_error=viewer.on_url_error)
+        pn.state.curdoc.js_on_event("document_ready", CustomJS(args={"bridge": viewer.bridge}, code=KEYS_JS))
+    pn.state.curdoc.title = f"{TITLE}: {state.star}" if pn.state.curdoc is not None else TITLE
+    return viewer.layout
+
+
+def serve(atlas_path, port: int = 5006, address: str = "127.0.0.1", procs: int = 1,
+          show: bool = False):
+    """Serve the atlas until interrupted (blocks)."""
+    open_view_atlas(atlas_path)  # fail early, with a one-line error, on a bad atlas
+    pn.extension(notifications=False)
+    origins = [f"{address}:{port}", f"localhost:{port}", f"127.0.0.1:{port}"]
+    pn.serve(
+        {"/": lambda: create_session(atlas_path)},
+        port=port, address=address, num_procs=procs, show=show, title=TITLE,
+        websocket_origin=origins, start=True, print_url=False,
+    )

@@ -1,0 +1,755 @@
+"""The viewer: one session's widgets and plots, all derived from a :class:`ViewState`.
+
+Widgets only set the state; one watcher on the state redraws what changed, with the
+Bokeh document held so each gesture reaches the browser as one update.  Each strip is
+a Bokeh figure with a fixed ``Range1d``; a ``RangesUpdate`` event (the end of a pan or
+zoom) sets ``lo``/``hi`` and the server answers with at most about two points per
+pixel from :mod:`atlas.lod` (real samples when zoomed in far enough).
+"""
+
+from __future__ import annotations
+
+import html
+import math
+
+import numpy as np
+import panel as pn
+from bokeh.events import RangesUpdate, Reset, Tap
+from bokeh.models import (
+    BoxAnnotation,
+    ColumnDataSource,
+    CustomJS,
+    Div,
+    HoverTool,
+    LabelSet,
+    Range1d,
+)
+from bokeh.plotting import figure
+
+from atlas.app import markers
+from atlas.app.data import AtlasData, line_list
+from atlas.app.frames import Frame, scale
+from atlas.app.state import PER_PAGE_MAX, URL_PARAMS, ViewState, parse_query
+
+C_KMS = 299_792.458  # CODATA exact speed of light
+DEFAULT_PX = 1100  # plot width assumed before the browser reports it
+JUMP_KMS = 150.0  # half-width of the window a go-to opens, km/s
+
+# Our own palette: ink on warm paper, one accent for the focused strip.
+INK = "#20283a"
+PAPER = "#fbf8f1"
+RULE = "#e6dfd0"
+SPECTRUM = "#1f4e79"
+STELLAR = "#b0562c"
+TELLURIC = "#6b8f71"
+FOCUS = "#d9a400"
+FEATURE_ID = "#5b3f8c"
+FEATURE_UN = "#c0304a"
+OVERVIEW = "#7a869a"
+
+CSS = f"""
+:host {{ --striae-ink: {INK}; }}
+.striae-card table {{ border-collapse: collapse; font-size: 12.5px; width: 100%; }}
+.striae-card td {{ padding: 2px 4px; border-bottom: 1px solid {RULE}; vertical-align: top; }}
+.striae-card td:first-child {{ color: #5a6275; white-space: nowrap; }}
+.striae-card .na {{ color: #9a9fab; font-style: italic; }}
+.striae-swatch {{ display:inline-block; width: 44px; height: 18px; border-radius: 3px;
+  border: 1px solid #00000033; vertical-align: middle; }}
+"""
+
+READOUT_JS = """
+const x = cb_obj.x;
+if (x == null || !isFinite(x)) { return; }
+const m = meta.data;
+const sc = m.scale[0];
+const lam = x * sc;
+function interp(xs, ys, v) {
+  const n = xs.length;
+  if (n == 0) { return NaN; }
+  if (n == 1) { return ys[0] + (v - xs[0]); }
+  let lo = 0, hi = n - 1;
+  if (v <= xs[0]) { hi = 1; } else if (v >= xs[n - 1]) { lo = n - 2; } else {
+    while (hi - lo > 1) { const mid = (lo + hi) >> 1; if (xs[mid] <= v) { lo = mid; } else { hi = mid; } }
+  }
+  const t = (v - xs[lo]) / (xs[hi] - xs[lo]);
+  return ys[lo] + t * (ys[hi] - ys[lo]);
+}
+const vac = interp(conv.data.d, conv.data.vac, lam);
+const air = interp(conv.data.d, conv.data.air, lam);
+const xs = src.data.x, ys = src.data.y;
+let f = '';
+if (xs.length > 0) {
+  let lo = 0, hi = xs.length - 1;
+  while (hi - lo > 1) { const mid = (lo + hi) >> 1; if (xs[mid] <= x) { lo = mid; } else { hi = mid; } }
+  const i = Math.abs(xs[lo] - x) <= Math.abs(xs[hi] - x) ? lo : hi;
+  const y = ys[i];
+  f = isFinite(y) ? ' · flux ' + (Math.abs(y) < 1e4 ? y.toFixed(3) : y.toExponential(3)) : ' · flux masked';
+}
+let v = '';
+if (m.ref_A[0] > 0) {
+  const r = lam / m.ref_A[0];
+  const kms = 299792.458 * (r * r - 1) / (r * r + 1);
+  v = ' · v ' + (kms >= 0 ? '+' : '') + kms.toFixed(2) + ' km/s from ' + m.ref_name[0];
+}
+out.text = '<b>' + m.frame[0] + ' frame</b> · λ ' + air.toFixed(3) + ' Å air · ' +
+  vac.toFixed(3) + ' Å vacuum' + v + f;
+"""
+
+KEYS_JS = """
+if (window.__striae_keys) { window.removeEventListener('keydown', window.__striae_keys); }
+const actions = {ArrowDown: 'strip+', ArrowRight: 'strip+', ArrowUp: 'strip-', ArrowLeft: 'strip-',
+                 PageDown: 'page+', PageUp: 'page-', Home: 'first', End: 'last'};
+window.__striae_keys = (e) => {
+  const t = e.composedPath ? e.composedPath()[0] : e.target;
+  if (t && (t.tagName === 'INPUT' || t.tagName === 'TEXTAREA' || t.tagName === 'SELECT' || t.isContentEditable)) { return; }
+  if (e.altKey || e.ctrlKey || e.metaKey) { return; }
+  const a = actions[e.key];
+  if (!a) { return; }
+  e.preventDefault();
+  bridge.tags = [a, Date.now()];
+};
+window.addEventListener('keydown', window.__striae_keys);
+"""
+
+
+def _fmt(v, fmt="{:.1f}", unit=""):
+    if v is None or (isinstance(v, float) and not math.isfinite(v)):
+        return '<span class="na">not measured</span>'
+    try:
+        return html.escape(fmt.format(v) + unit)
+    except (TypeError, ValueError):
+        return html.escape(str(v))
+
+
+def swatch_css(colour) -> str | None:
+    """A CSS colour from a record's ``colour_srgb`` ([r, g, b] in 0..1 or 0..255, or #hex)."""
+    if isinstance(colour, str) and len(colour) in (4, 7) and colour.startswith("#"):
+        return colour if all(c in "0123456789abcdefABCDEF" for c in colour[1:]) else None
+    if isinstance(colour, (list, tuple)) and len(colour) == 3:
+        try:
+            vals = [float(c) for c in colour]
+        except (TypeError, ValueError):
+            return None
+        if not all(math.isfinite(c) for c in vals):
+            return None
+        if max(vals) <= 1.0:
+            vals = [c * 255 for c in vals]
+        r, g, b = (int(round(min(255, max(0, c)))) for c in vals)
+        return f"#{r:02x}{g:02x}{b:02x}"
+    return None
+
+
+def star_card_html(rec: dict, frame_note: str = "") -> str:
+    """The star card: name, class, Teff, RV, barycentric correction, S/N, R, colour, file."""
+    colour = swatch_css(rec.get("colour_srgb"))
+    sw = (f'<span class="striae-swatch" style="background:{colour}"></span> {colour}'
+          if colour else '<span class="na">not measured</span>')
+    rv = rec.get("rv_kms")
+    rv_txt = _fmt(rv, "{:+.2f}", " km/s")
+    if rv is not None and rec.get("rv_err_kms") is not None:
+        rv_txt = html.escape(f"{rv:+.2f} ± {rec['rv_err_kms']:.2f} km/s")
+    rows = [
+        ("star", html.escape(str(rec.get("name") or rec.get("id")))),
+        ("class", _fmt(rec.get("spectral_class"), "{}")),
+        ("Teff", _fmt(rec.get("teff_k"), "{:.0f}", " K")),
+        ("RV (barycentric)", rv_txt),
+        ("barycentric corr.", _fmt(rec.get("barycentric_kms"), "{:+.3f}", " km/s")),
+        ("S/N", _fmt(rec.get("snr"), "{:.0f}")),
+        ("resolving power", _fmt(rec.get("resolving_power"), "{:,.0f}")),
+        ("true colour", sw),
+        ("samples", _fmt(rec.get("samples"), "{:,}")),
+        ("range (vacuum)", _fmt(rec.get("wavelength_min_A"), "{:.1f}") + " – "
+         + _fmt(rec.get("wavelength_max_A"), "{:.1f}", " Å")),
+        ("source file", html.escape(str(rec.get("source") or "")) or '<span class="na">unknown</span>'),
+    ]
+    body = "".join(f"<tr><td>{k}</td><td>{v}</td></tr>" for k, v in rows)
+    note = f'<p style="color:#8a5a00;font-size:12px">{html.escape(frame_note)}</p>' if frame_note else ""
+    return f'<div class="striae-card"><table>{body}</table>{note}</div>'
+
+
+def plot_width_px(fig) -> int:
+    """The plot's canvas width in pixels as the browser reported it (a default before)."""
+    try:
+        w = int(fig.inner_width or 0)
+    except Exception:  # not reported yet
+        w = 0
+    return min(max(w, 200), 4000) if w > 0 else DEFAULT_PX
+
+
+class Slot:
+    """One strip figure on the page and its data sources."""
+
+    def __init__(self, index: int, viewer: Viewer):
+        self.index = index
+        self.strip: int | None = None
+        self.drawn = None
+        self.src = ColumnDataSource({"x": np.zeros(0, np.float32), "y": np.zeros(0, np.float32)})
+        self.msrc = ColumnDataSource(markers._empty() | {"colour": []})
+        self.fsrc = ColumnDataSource({"x": [], "y": [], "species": [], "rest": [], "ew": [], "colour": []})
+        self.ksrc = ColumnDataSource({"x0": [], "x1": [], "note": []})
+        self.conv = ColumnDataSource({"d": [0.0, 1.0], "vac": [0.0, 1.0], "air": [0.0, 1.0]})
+        fig = figure(
+            height=118, sizing_mode="stretch_width", output_backend="webgl",
+            x_range=Range1d(0, 1), y_range=Range1d(0, 1.2),
+            tools="xpan,xwheel_zoom,xbox_zoom,reset", active_drag="xpan",
+            toolbar_location="right", min_border_left=46, min_border_right=6,
+            min_border_top=4, min_border_bottom=18, name=f"strip-{index}",
+            background_fill_color=PAPER, border_fill_color="white",
+        )
+        fig.toolbar.logo = None
+        fig.grid.grid_line_color = RULE
+        fig.xaxis.major_label_text_font_size = "10px"
+        fig.yaxis.major_label_text_font_size = "9px"
+        fig.yaxis.ticker.desired_num_ticks = 3
+        fig.outline_line_width = 2
+        fig.outline_line_color = None
+        fig.vstrip(x0="x0", x1="x1", source=self.ksrc, fill_color=FOCUS, fill_alpha=0.12, line_alpha=0)
+        mr = fig.vspan(x="x", source=self.msrc, line_color="colour", line_alpha=0.55, line_width=1)
+        fig.add_layout(LabelSet(
+            x="x", y=4, y_units="screen", text="label", source=self.msrc, text_font_size="9px",
+            text_color="colour", angle=math.pi / 2, x_offset=-2, text_baseline="bottom",
+            text_align="left",
+        ))
+        fig.line("x", "y", source=self.src, line_color=SPECTRUM, line_width=1.1)
+        fr = fig.scatter("x", "y", source=self.fsrc, marker="inverted_triangle", size=7,
+                         fill_color="colour", line_color=None)
+        fig.add_tools(HoverTool(renderers=[mr], tooltips=[
+            ("line", "@species"), ("rest air", "@air_A{0.000} Å"),
+            ("rest vacuum", "@vacuum_A{0.000} Å"), ("strength", "@strength"),
+            ("EW", "@ew")], point_policy="follow_mouse"))
+        fig.add_tools(HoverTool(renderers=[fr], tooltips=[
+            ("feature", "@species"), ("rest vacuum", "@rest"), ("EW", "@ew")]))
+        fig.js_on_event("mousemove", CustomJS(
+            args={"src": self.src, "conv": self.conv, "meta": viewer.meta, "out": viewer.readout},
+            code=READOUT_JS))
+        fig.on_event(RangesUpdate, lambda ev: viewer.on_range(self, ev))
+        fig.on_event(Reset, lambda ev: viewer.on_reset(self))
+        self.fig = fig
+
+
+class Viewer:
+    """One session's view of an atlas; ``layout`` is what the server shows."""
+
+    def __init__(self, data: AtlasData, state: ViewState, notices: list[str] | None = None):
+        self.data = data
+        self.state = state
+        self._notices = list(notices or [])
+        self._lines = line_list()
+        self._placed_key = None
+        self._placed = None
+        self._yrange: dict = {}
+        self._busy = False
+        self.meta = ColumnDataSource({"scale": [1.0], "ref_A": [0.0], "ref_name": [""],
+                                      "frame": ["observed"]})
+        self.readout = Div(text="move the cursor over a strip for wavelength, velocity and flux",
+                           sizing_mode="stretch_width", styles={"font-size": "12.5px", "color": INK},
+                           name="readout")
+        self.bridge = Div(text="", visible=False, name="striae-keys")
+        self.bridge.on_change("tags", lambda attr, old, new: self.key(new[0] if new else ""))
+        self._build_widgets()
+        self._build_overview()
+        self.slots = [Slot(i, self) for i in range(PER_PAGE_MAX)]
+        self.strips = pn.Column(*[pn.pane.Bokeh(s.fig, sizing_mode="stretch_width", margin=(0, 0, 2, 0))
+                                  for s in self.slots], sizing_mode="stretch_width")
+        self.state.param.watch(self._on_state, list(URL_PARAMS))
+        self.layout = self._build_layout()
+        self.refresh()
+
+    # ----------------------------------------------------------------- building
+    def _build_widgets(self):
+        st = self.state
+        names = {f"{r.get('name') or k} ({k})": k for k, r in self.data.records.items()}
+        self.w_star = pn.widgets.Select(name="Star", options=names, value=st.star or None,
+                                        sizing_mode="stretch_width")
+        self.w_star.param.watch(lambda e: self.choose_star(e.new), "value")
+        self.w_jump = pn.widgets.TextInput(name="Go to (wavelength or line)",
+                                           placeholder="6563 · 656.3 nm · Na I 5890 · H I",
+                                           sizing_mode="stretch_width")
+        self.w_jump.param.watch(lambda e: self.go_to(e.new), "value")
+        self.w_frame = pn.widgets.RadioButtonGroup.from_param(st.param.frame, name="Frame",
+                                                              button_type="light", sizing_mode="stretch_width")
+        self.w_medium = pn.widgets.RadioButtonGroup.from_param(st.param.medium, button_type="light",
+                                                               sizing_mode="stretch_width")
+        self.w_unit = pn.widgets.RadioButtonGroup.from_param(st.param.unit, button_type="light",
+                                                             sizing_mode="stretch_width")
+        self.w_flux = pn.widgets.RadioButtonGroup.from_param(st.param.flux, button_type="light",
+                                                             sizing_mode="stretch_width")
+        species = sorted(set(self._lines["species"])) if self._lines is not None else []
+        self.w_lines = pn.widgets.MultiChoice(name="Line species (empty = all)", options=species,
+                                              value=[s for s in st.lines if s in species],
+                                              sizing_mode="stretch_width")
+        self.w_lines.param.watch(lambda e: self.state.param.update(lines=list(e.new)), "value")
+        self.w_strength = pn.widgets.IntSlider.from_param(st.param.strength, name="Weakest line class shown",
+                                                          sizing_mode="stretch_width")
+        self.w_per_page = pn.widgets.IntSlider.from_param(st.param.per_page, name="Strips per page",
+                                                          sizing_mode="stretch_width")
+        self.w_copy = pn.widgets.Button(name="Copy link to this view", button_type="primary",
+                                        sizing_mode="stretch_width")
+        self.w_copy.js_on_click(code="""
+            const url = window.location.href;
+            if (navigator.clipboard) { navigator.clipboard.writeText(url); }
+            window.prompt('Link to this view', url);""")
+        b = dict(width=66, button_type="default", margin=(4, 2))
+        self.w_first = pn.widgets.Button(name="⇤ first", description="first page (Home)", **b)
+        self.w_prev_page = pn.widgets.Button(name="◀ page", description="previous page (PageUp)", **b)
+        self.w_prev_strip = pn.widgets.Button(name="↑ strip", description="previous strip (↑ or ←)", **b)
+        self.w_next_strip = pn.widgets.Button(name="↓ strip", description="next strip (↓ or →)", **b)
+        self.w_next_page = pn.widgets.Button(name="page ▶", description="next page (PageDown)", **b)
+        self.w_last = pn.widgets.Button(name="last ⇥", description="last page (End)", **b)
+        self.w_whole = pn.widgets.Button(name="whole strips", width=110, margin=(4, 6))
+        for w, act in ((self.w_first, "first"), (self.w_prev_page, "page-"), (self.w_prev_strip, "strip-"),
+                       (self.w_next_strip, "strip+"), (self.w_next_page, "page+"), (self.w_last, "last"),
+                       (self.w_whole, "whole")):
+            w.on_click(lambda e, a=act: self.key(a))
+        self.page_label = pn.pane.HTML("", margin=(8, 8), styles={"font-size": "13px", "color": INK},
+                                       css_classes=["page-label"], name="page-label")
+        self.notice = pn.pane.Alert("", alert_type="warning", visible=False, sizing_mode="stretch_width",
+                                    margin=(0, 0, 4, 0))
+        self.card = pn.pane.HTML("", sizing_mode="stretch_width", stylesheets=[CSS])
+
+    def _build_overview(self):
+        self.ov_src = ColumnDataSource({"x": np.zeros(0, np.float32), "y": np.zeros(0, np.float32)})
+        fig = figure(height=92, sizing_mode="stretch_width", tools="", toolbar_location=None,
+                     x_range=Range1d(0, 1), y_range=Range1d(0, 1.2), name="overview",
+                     background_fill_color="white", min_border_left=46, min_border_bottom=16,
+                     min_border_top=16, output_backend="webgl")
+        fig.title.text = "whole spectrum: click to go there"
+        fig.title.text_font_size = "11px"
+        fig.title.text_color = "#5a6275"
+        fig.grid.visible = False
+        fig.yaxis.visible = False
+        fig.xaxis.major_label_text_font_size = "9px"
+        fig.line("x", "y", source=self.ov_src, line_color=OVERVIEW, line_width=1)
+        self.ov_page = BoxAnnotation(left=0, right=0, fill_color=SPECTRUM, fill_alpha=0.15,
+                                     line_color=SPECTRUM, line_width=1)
+        self.ov_zoom = BoxAnnotation(left=0, right=0, fill_color=FOCUS, fill_alpha=0.6, line_alpha=0)
+        fig.add_layout(self.ov_page)
+        fig.add_layout(self.ov_zoom)
+        fig.on_event(Tap, self.on_overview_tap)
+        self.overview_fig = fig
+
+    def _build_layout(self):
+        nav = pn.Row(self.w_first, self.w_prev_page, self.w_prev_strip, self.w_next_strip,
+                     self.w_next_page, self.w_last, self.page_label, pn.layout.HSpacer(), self.w_whole,
+                     sizing_mode="stretch_width", margin=0)
+        main = pn.Column(
+            nav, self.notice,
+            pn.pane.Bokeh(self.readout, sizing_mode="stretch_width", margin=(0, 4)),
+            pn.pane.Bokeh(self.overview_fig, sizing_mode="stretch_width", margin=(0, 0, 4, 0)),
+            self.strips, pn.pane.Bokeh(self.bridge, visible=False),
+            sizing_mode="stretch_width", margin=(0, 8),
+        )
+
+        def label(t):
+            return pn.pane.HTML(f'<div style="font-size:12px;color:#5a6275;margin-top:4px">{t}</div>', margin=(0, 10))
+
+        side = pn.Column(
+            pn.pane.HTML(f'<div style="font:600 22px Georgia,serif;color:{INK}">Striae</div>'
+                         f'<div style="font-size:11px;color:#5a6275">{html.escape(str(self.data.path))}</div>',
+                         margin=(6, 10)),
+            self.w_star, self.card, self.w_jump,
+            label("Frame"), self.w_frame, label("Wavelengths in"), self.w_medium, self.w_unit,
+            label("Flux"), self.w_flux, self.w_lines, self.w_strength, self.w_per_page, self.w_copy,
+            pn.pane.HTML('<div style="font-size:11px;color:#5a6275">Keys: ↓/→ next strip, ↑/← previous,'
+                         ' PageDown/PageUp pages, Home/End. Drag to pan, box or wheel to zoom,'
+                         ' double-click reset tool for the whole strip.</div>', margin=(6, 10)),
+            width=290, styles={"background": "#f3efe4", "border-right": f"1px solid {RULE}"},
+            scroll=True, sizing_mode="stretch_height",
+        )
+        return pn.Row(side, main, sizing_mode="stretch_both", styles={"background": "white"})
+
+    # ----------------------------------------------------------------- derived
+    def record(self) -> dict:
+        return self.data.record(self.state.star)
+
+    def frame(self) -> Frame:
+        rec = self.record()
+        return Frame(self.state.frame, self.state.medium, rec.get("rv_kms"), rec.get("barycentric_kms"))
+
+    def n_strips(self) -> int:
+        return len(self.data.strip_bounds(self.state.star)[0])
+
+    def n_pages(self) -> int:
+        return max(1, -(-self.n_strips() // self.state.per_page))
+
+    def page_strips(self) -> list[int]:
+        first = (self.state.page - 1) * self.state.per_page
+        return [i for i in range(first, first + self.state.per_page) if i < self.n_strips()]
+
+    def strip_of_display(self, wave_A: float, fr: Frame | None = None) -> int | None:
+        """The strip holding a displayed wavelength (Å), or None."""
+        fr = fr or self.frame()
+        s = float(fr.from_display_A(wave_A))
+        lo, hi = self.data.strip_bounds(self.state.star)
+        inside = np.nonzero((lo <= s) & (s <= hi))[0]
+        return int(inside[0]) if len(inside) else None
+
+    def zoom_strip(self) -> int | None:
+        if self.state.lo is None or self.state.hi is None:
+            return None
+        return self.strip_of_display(0.5 * (self.state.lo + self.state.hi))
+
+    def strip_display_range(self, strip: int, fr: Frame) -> tuple[float, float]:
+        lo, hi = self.data.strip_bounds(self.state.star)
+        d = fr.to_display_A(np.array([lo[strip], hi[strip]]))
+        return float(d[0]), float(d[1])
+
+    # ----------------------------------------------------------------- gestures
+    def note(self, *msgs: str):
+        self._notices.extend(m for m in msgs if m)
+
+    def choose_star(self, star_id):
+        if star_id and star_id != self.state.star:
+            self.state.param.update(star=star_id, page=1, lo=None, hi=None, compare="")
+
+    def key(self, action: str):
+        """Step pages and strips (buttons and keys)."""
+        st = self.state
+        n_pages = self.n_pages()
+        if action == "first":
+            st.param.update(page=1, lo=None, hi=None)
+        elif action == "last":
+            st.param.update(page=n_pages, lo=None, hi=None)
+        elif action in ("page+", "page-"):
+            p = min(n_pages, max(1, st.page + (1 if action == "page+" else -1)))
+            st.param.update(page=p, lo=None, hi=None)
+        elif action == "whole":
+            st.param.update(lo=None, hi=None)
+        elif action in ("strip+", "strip-"):
+            self.step_strip(1 if action == "strip+" else -1)
+
+    def step_strip(self, d: int):
+        """Move the focus (the zoom window) to the next or previous strip, keeping its
+        position within the strip (strips have equal velocity width, so the window is
+        scaled by the ratio of the strips' starts)."""
+        st, fr = self.state, self.frame()
+        cur = self.zoom_strip()
+        strips = self.page_strips()
+        if cur is None:
+            target = strips[0] if d > 0 else strips[-1]
+            lo, hi = self.strip_display_range(target, fr)
+        else:
+            target = cur + d
+            if not (0 <= target < self.n_strips()):
+                return
+            a0, _ = self.strip_display_range(cur, fr)
+            b0, b1 = self.strip_display_range(target, fr)
+            r = b0 / a0
+            lo, hi = max(b0, st.lo * r), min(b1, st.hi * r)
+            if hi - lo < 1e-3:
+                lo, hi = b0, b1
+        st.param.update(page=target // st.per_page + 1, lo=lo, hi=hi)
+
+    def go_to(self, text: str):
+        """Open a window around a typed wavelength or line (and make a line the velocity reference)."""
+        if not text or not text.strip():
+            return
+        st = self.state
+        try:
+            species, w, unit = markers.parse_target(text)
+        except ValueError as exc:
+            self.note(f"go to: {exc}")
+            self.refresh_notice()
+            return
+        if w is not None:
+            unit = unit or ("nm" if st.unit == "nm" and w < 2000 else "A")
+            w = w * 10.0 if unit == "nm" else w
+        fr = self.frame()
+        ref = st.ref
+        if species:
+            row = markers.find_line(self._lines, species, w, st.medium)
+            if row is None:
+                self.note(f"go to: no line {species!r} near {w} in the line list" if w else
+                          f"go to: no species {species!r} in the line list")
+                self.refresh_notice()
+                return
+            target = float(fr.rest_vac_to_display_A(np.array([row["vacuum_A"]]), bool(row["telluric"]))[0])
+            rest = row["air_A"] if st.medium == "air" else row["vacuum_A"]
+            ref = f"{row['species']} {rest:.2f}"
+        else:
+            target = w
+        strip = self.strip_of_display(target, fr)
+        if strip is None:
+            self.note(f"go to: {target:.2f} Å ({st.medium}, {st.frame} frame) is outside this spectrum")
+            self.refresh_notice()
+            return
+        half = target * JUMP_KMS / C_KMS
+        s0, s1 = self.strip_display_range(strip, fr)
+        st.param.update(page=strip // st.per_page + 1, lo=max(s0, target - half),
+                        hi=min(s1, target + half), ref=ref)
+
+    def on_range(self, slot: Slot, ev):
+        """End of a pan or zoom in one strip: the window becomes the state."""
+        if slot.strip is None or ev.x0 is None or ev.x1 is None:
+            return
+        sc = scale(self.state.unit)
+        x0, x1 = float(ev.x0) * sc, float(ev.x1) * sc
+        if not (math.isfinite(x0) and math.isfinite(x1)) or x1 <= x0:
+            return
+        fr = self.frame()
+        s0, s1 = self.strip_display_range(slot.strip, fr)
+        x0, x1 = max(s0, x0), min(s1, x1)
+        cur = (self.state.lo, self.state.hi)
+        whole = (x1 - x0) >= 0.999 * (s1 - s0)
+        if whole:
+            if self.zoom_strip() == slot.strip or cur == (None, None):
+                if cur != (None, None):
+                    self.state.param.update(lo=None, hi=None)
+            return
+        if cur[0] is not None and abs(cur[0] - x0) < 1e-6 and abs(cur[1] - x1) < 1e-6:
+            return
+        self.state.param.update(lo=x0, hi=x1)
+
+    def on_reset(self, slot: Slot):
+        if self.zoom_strip() == slot.strip:
+            self.state.param.update(lo=None, hi=None)
+
+    def on_overview_tap(self, ev):
+        if ev.x is None:
+            return
+        strip = self.strip_of_display(float(ev.x) * scale(self.state.unit))
+        if strip is None:
+            return
+        self.state.param.update(page=strip // self.state.per_page + 1, lo=None, hi=None)
+
+    def on_url_error(self, mapped: dict):
+        """Values from the URL that the parameters refused: validate them our way."""
+        values, notices = parse_query({k: v for k, v in mapped.items()}, self.data.strips_of())
+        values = {k: v for k, v in values.items() if k in mapped}
+        self.note(*notices)
+        if values:
+            self.state.param.update(**values)
+        else:
+            self.refresh_notice()
+
+    # ----------------------------------------------------------------- drawing
+    def _on_state(self, *events):
+        if self._busy:
+            return
+        changed = {e.name for e in events}
+        old = {e.name: e.old for e in events}
+        st = self.state
+        # Keep the zoom window on the same stretch when the frame or medium changes.
+        if changed & {"frame", "medium"} and st.lo is not None and st.hi is not None:
+            rec = self.record()
+            before = Frame(old.get("frame", st.frame), old.get("medium", st.medium),
+                           rec.get("rv_kms"), rec.get("barycentric_kms"))
+            stored = before.from_display_A(np.array([st.lo, st.hi]))
+            lo, hi = (float(v) for v in self.frame().to_display_A(stored))
+            self._busy = True
+            try:
+                st.param.update(lo=lo, hi=hi)
+            finally:
+                self._busy = False
+        if "per_page" in changed:
+            focus = self.zoom_strip()
+            first = (old.get("page", st.page) - 1) * old["per_page"] if focus is None else focus
+            self._busy = True
+            try:
+                st.param.update(page=min(first // st.per_page + 1, self.n_pages()))
+            finally:
+                self._busy = False
+        if "lines" in changed and list(self.w_lines.value) != list(st.lines):
+            self.w_lines.value = [s for s in st.lines if s in self.w_lines.options]
+        if "star" in changed and self.w_star.value != st.star:
+            self.w_star.value = st.star
+        self.refresh(changed)
+
+    def frame_fallback(self) -> str:
+        rec = self.record()
+        if self.state.frame == "barycentric" and rec.get("barycentric_kms") is None:
+            return ("No barycentric correction is known for this star (the file lacked time, site or "
+                    "coordinates): the barycentric frame equals the observed frame here.")
+        if self.state.frame == "rest" and rec.get("rv_kms") is None:
+            return "No radial velocity is measured for this star: the rest frame shows no RV shift."
+        return ""
+
+    def refresh_notice(self):
+        if self._notices:
+            self.notice.object = " · ".join(html.escape(n) for n in self._notices[-4:])
+            self.notice.visible = True
+        else:
+            self.notice.visible = False
+
+    def refresh(self, changed=None):
+        """Make every view match the state (one held document update)."""
+        with pn.io.hold():
+            self.update_strips()
+            self.update_overview()
+            self.update_side()
+            self.refresh_notice()
+        self._notices = []
+
+    def update_side(self):
+        st = self.state
+        self.card.object = star_card_html(self.record(), self.frame_fallback())
+        strips = self.page_strips()
+        zs = self.zoom_strip()
+        extra = f" · zoomed in strip {zs + 1}" if zs is not None else ""
+        unit = "Å" if st.unit == "A" else "nm"
+        extra += f" · wavelengths in {unit}, {st.medium}, {st.frame} frame"
+        self.page_label.object = (f"page <b>{st.page}</b> of {self.n_pages()} · strips "
+                                  f"{strips[0] + 1}–{strips[-1] + 1} of {self.n_strips()}{extra}"
+                                  if strips else "no strips")
+
+    def _ref(self):
+        st = self.state
+        if not st.ref or self._lines is None:
+            return 0.0, ""
+        try:
+            sp, w, _ = markers.parse_target(st.ref)
+        except ValueError:
+            return 0.0, ""
+        row = markers.find_line(self._lines, sp, w, "air") if sp else None
+        if row is None:
+            row = markers.find_line(self._lines, sp, w, "vacuum") if sp else None
+        if row is None:
+            return 0.0, ""
+        lam = float(row["air_A"] if st.medium == "air" else row["vacuum_A"])
+        return lam, f"{row['species']} {lam:.2f} ({st.medium})"
+
+    def _placed_lines(self, fr: Frame):
+        key = (self.state.star, fr)
+        if key != self._placed_key:
+            self._placed = markers.place(self._lines, fr)
+            self._placed_key = key
+        return self._placed
+
+    def _ew_map(self):
+        df = self.data.features(self.state.star)
+        if df is None or "species" not in df or "ew_mA" not in df or "rest_A" not in df:
+            return None
+        return {(s, round(float(r), 1)): float(e) for s, r, e in zip(df["species"], df["rest_A"], df["ew_mA"],
+                                                                    strict=True)
+                if s and np.isfinite(r) and np.isfinite(e)}
+
+    def _y_range(self, strip: int, flux: str):
+        key = (self.state.star, strip, flux)
+        r = self._yrange.get(key)
+        if r is None:
+            lo_b, hi_b = self.data.strip_bounds(self.state.star)
+            w = self.data.window(self.state.star, strip, lo_b[strip], hi_b[strip], 1024, flux=flux)
+            y = np.asarray(w["flux"], dtype=np.float64)
+            y = y[np.isfinite(y)]
+            if len(y) == 0:
+                r = (0.0, 1.2)
+            else:
+                a, b = float(np.min(y)), float(np.max(y))
+                if flux == "norm":
+                    a, b = min(a, 0.0) if a < 0.2 else a, max(b, 1.08)
+                pad = 0.06 * (b - a or 1.0)
+                r = (a - pad, b + pad)
+            self._yrange[key] = r
+        return r
+
+    def update_strips(self):
+        st = self.state
+        fr = self.frame()
+        sc = scale(st.unit)
+        flux = "norm" if st.flux == "normalized" else "raw"
+        strips = self.page_strips()
+        zs = self.zoom_strip()
+        ref_A, ref_name = self._ref()
+        self.meta.data = {"scale": [sc], "ref_A": [ref_A], "ref_name": [ref_name], "frame": [st.frame]}
+        placed = self._placed_lines(fr)
+        ew = self._ew_map()
+        feats = self.data.features(st.star)
+        for i, slot in enumerate(self.slots):
+            strip = strips[i] if i < len(strips) else None
+            slot.strip = strip
+            visible = strip is not None
+            if slot.fig.visible != visible:
+                slot.fig.visible = visible
+            if not visible:
+                continue
+            s0, s1 = self.strip_display_range(strip, fr)
+            if zs == strip:
+                lo, hi = max(s0, st.lo), min(s1, st.hi)
+            else:
+                lo, hi = s0, s1
+            width = plot_width_px(slot.fig)
+            key = (st.star, strip, round(lo, 6), round(hi, 6), fr, st.unit, flux, width,
+                   tuple(st.lines), st.strength, ref_A, tuple(map(tuple, st.marks)), zs == strip)
+            if key == slot.drawn:
+                continue
+            self.draw_slot(slot, strip, lo, hi, s0, s1, fr, sc, flux, width, placed, ew, feats, zs == strip)
+            slot.drawn = key
+
+    def draw_slot(self, slot, strip, lo, hi, s0, s1, fr, sc, flux, width, placed, ew, feats, focused):
+        """Fill one strip figure: LOD data for [lo, hi] (displayed Å), markers, ranges."""
+        st = self.state
+        stored = fr.from_display_A(np.array([lo, hi]))
+        w = self.data.window(st.star, strip, float(stored[0]), float(stored[1]), 2 * width, flux=flux)
+        x = (fr.to_display_A(np.asarray(w["wavelength"], dtype=np.float64)) / sc).astype(np.float32)
+        slot.src.data = {"x": x, "y": np.asarray(w["flux"], dtype=np.float32)}
+        slot.level = int(w.get("level", 0))
+        xr_ = slot.fig.x_range
+        xr_.update(bounds=None)
+        xr_.update(start=lo / sc, end=hi / sc, reset_start=s0 / sc, reset_end=s1 / sc,
+                   bounds=(s0 / sc, s1 / sc))
+        y0, y1 = self._y_range(strip, flux)
+        slot.fig.y_range.update(start=y0, end=y1)
+        slot.fig.outline_line_color = FOCUS if focused else None
+        slot.fig.yaxis.axis_label = f"{strip + 1}"
+        slot.fig.yaxis.axis_label_text_font_size = "10px"
+        m = markers.visible(placed, lo, hi, st.lines, st.strength, st.medium, width, ew=ew)
+        m["x"] = np.asarray(m["x"], dtype=np.float64) / sc
+        m["colour"] = [TELLURIC if t else STELLAR for t in m["telluric"]]
+        slot.msrc.data = m
+        fd = {"x": [], "y": [], "species": [], "rest": [], "ew": [], "colour": []}
+        if feats is not None and "wavelength_A" in feats:
+            fx = fr.to_display_A(feats["wavelength_A"].to_numpy(dtype=float))
+            inside = (fx >= lo) & (fx <= hi)
+            sub = feats[inside]
+            sp = sub["species"].astype(str).tolist() if "species" in sub else [""] * len(sub)
+            fd = {
+                "x": fx[inside] / sc,
+                "y": [self._y_range(strip, flux)[1] * 0.97] * len(sub),
+                "species": [s or "unidentified" for s in sp],
+                "rest": [f"{r:.3f} Å" if np.isfinite(r) else "—" for r in sub.get("rest_A", [np.nan] * len(sub))],
+                "ew": [f"{e:.1f} mÅ" if np.isfinite(e) else "not measured"
+                       for e in sub.get("ew_mA", [np.nan] * len(sub))],
+                "colour": [FEATURE_ID if s else FEATURE_UN for s in sp],
+            }
+        slot.fsrc.data = fd
+        marks = [mk for mk in st.marks if mk[1] >= lo and mk[0] <= hi]
+        slot.ksrc.data = {"x0": [mk[0] / sc for mk in marks], "x1": [mk[1] / sc for mk in marks],
+                          "note": [mk[2] for mk in marks]}
+        d = np.linspace(s0 - 1.0, s1 + 1.0, 33)
+        vac = Frame(st.frame, "vacuum", fr.rv_kms, fr.bary_kms).to_display_A(fr.from_display_A(d))
+        air = Frame(st.frame, "air", fr.rv_kms, fr.bary_kms).to_display_A(fr.from_display_A(d))
+        slot.conv.data = {"d": d, "vac": vac, "air": air}
+        slot.fig.xaxis.axis_label = None
+
+    def update_overview(self):
+        st = self.state
+        fr = self.frame()
+        sc = scale(st.unit)
+        flux = "norm" if st.flux == "normalized" else "raw"
+        key = (st.star, fr, st.unit, flux)
+        if getattr(self, "_ov_key", None) != key:
+            ov = self.data.overview(st.star, flux=flux)
+            x = fr.to_display_A(ov["wavelength"]) / sc
+            y = np.asarray(ov["flux"], dtype=np.float32)
+            self.ov_src.data = {"x": x.astype(np.float32), "y": y}
+            lo_b, hi_b = self.data.strip_bounds(st.star)
+            full = fr.to_display_A(np.array([np.nanmin(lo_b), np.nanmax(hi_b)])) / sc
+            self.overview_fig.x_range.update(start=float(full[0]), end=float(full[1]))
+            fy = y[np.isfinite(y)]
+            if len(fy):
+                a, b = np.percentile(fy, [0.5, 99.9])
+                pad = 0.05 * (b - a or 1)
+                self.overview_fig.y_range.update(start=float(a - pad), end=float(b + pad))
+            self._ov_key = key
+        strips = self.page_strips()
+        if strips:
+            p0, _ = self.strip_display_range(strips[0], fr)
+            _, p1 = self.strip_display_range(strips[-1], fr)
+            self.ov_page.update(left=p0 / sc, right=p1 / sc)
+        if st.lo is not None and self.zoom_strip() is not None:
+            span = max(st.hi - st.lo, (self.overview_fig.x_range.end - self.overview_fig.x_range.start) * sc / 400)
+            mid = 0.5 * (st.lo + st.hi)
+            self.ov_zoom.update(left=(mid - span / 2) / sc, right=(mid + span / 2) / sc, visible=True)
+        else:
+            self.ov_zoom.visible = False
+
