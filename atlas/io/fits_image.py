@@ -125,7 +125,7 @@ def _axis_unit(file_unit, wave_unit, path):
             opt = validate.wavelength_unit(wave_unit, "--wave-unit", "wavelengths")
             if opt != unit:
                 raise InputError(
-                    "--wave-unit", f"{wave_unit!r} disagrees with the file's CUNIT1 {file_unit!r}"
+                    path, f"--wave-unit {wave_unit!r} disagrees with the file's unit {file_unit!r}"
                 )
         return unit
     if wave_unit is None:

@@ -30,7 +30,7 @@ from atlas.io.fits_image import to_sigma
 from atlas.io.fits_table import FLUX_NAMES, IVAR_NAMES, SIGMA_NAMES, VARIANCE_NAMES
 
 NAME = "text"
-DESCRIPTION = "CSV/TSV text with a header line (wavelength_A|nm|um, flux, uncertainty) and '# key: value' metadata"
+DESCRIPTION = "CSV/TSV table with a header line and '# key: value' metadata"
 
 #: ``# key: value`` comment keys and what they mean.
 METADATA_KEYS = {
@@ -221,10 +221,9 @@ def _unit(path, col_unit, comment, option):
     first = named[0]
     for other in named[1:]:
         if other[0] != first[0]:
-            where = "--wave-unit" if other[2] == "--wave-unit" else path
             raise InputError(
-                where,
-                f"unit {other[1]!r} from {other[2]} disagrees with {first[1]!r} from {first[2]}",
+                path,
+                f"wavelength unit {other[1]!r} from {other[2]} disagrees with {first[1]!r} from {first[2]}",
             )
     return first[0]
 
