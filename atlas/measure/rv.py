@@ -134,54 +134,15 @@ def der_noise(flux) -> float:
     return float(1.482602 / math.sqrt(6.0) * np.median(d))
 
 
-def normalise(wave_A, flux, mask=None, *, knot_kms: float = 3000.0, iterations: int = 6):
-    """Continuum of a 1-D spectrum by an asymmetric sigma-clipped running median.
+def normalise(wave_A, flux, mask=None):
+    """Continuum (flux units) of a 1-D spectrum with sorted wavelengths (Å).
 
-    Bins of ``knot_kms`` (km/s) in ln(wavelength); in each, the median of the points
-    kept; PCHIP interpolation between bins; points more than 2 sigma below (absorption)
-    or 4 sigma above (spikes) the continuum are dropped and the fit repeated.
-    Returns the continuum array (flux units).  `common practice`.
+    The build's continuum, :func:`atlas.continuum.fit_continuum` (a penalised B-spline
+    with asymmetric clipping, Eilers & Marx 1996), so measurements and the atlas agree.
     """
-    from scipy.interpolate import PchipInterpolator
+    from atlas.continuum import fit_continuum
 
-    w = np.asarray(wave_A, dtype=np.float64)
-    f = np.asarray(flux, dtype=np.float64)
-    ok = np.isfinite(f) & np.isfinite(w) & (w > 0)
-    if mask is not None:
-        ok &= ~np.asarray(mask, dtype=bool)
-    if ok.sum() < 10:
-        return np.full_like(f, np.nan)
-    x = np.log(np.where(w > 0, w, 1.0))
-    span = x[ok].max() - x[ok].min()
-    nbin = max(1, int(round(span / (knot_kms / C_KMS))))
-    edges = np.linspace(x[ok].min(), x[ok].max() + 1e-12, nbin + 1)
-    b = np.clip(np.searchsorted(edges, x, side="right") - 1, 0, nbin - 1)
-    keep = ok.copy()
-    cont = np.full_like(f, np.nan)
-    for _ in range(iterations):
-        centres, values = [], []
-        for i in range(nbin):
-            sel = keep & (b == i)
-            if sel.sum() >= 5:
-                centres.append(np.median(x[sel]))
-                values.append(np.median(f[sel]))
-        if not centres:
-            break
-        centres = np.asarray(centres)
-        values = np.asarray(values)
-        if centres.size == 1:
-            cont = np.full_like(f, values[0])
-        else:
-            cont = PchipInterpolator(centres, values, extrapolate=True)(x)
-        resid = f - cont
-        sig = 1.482602 * np.median(np.abs(resid[keep] - np.median(resid[keep])))
-        if not np.isfinite(sig) or sig <= 0:
-            break
-        new = ok & (resid > -2.0 * sig) & (resid < 4.0 * sig)
-        if np.array_equal(new, keep):
-            break
-        keep = new
-    return cont
+    return fit_continuum(np.asarray(wave_A, dtype=np.float64), flux, mask)
 
 
 def line_mask(lines, medium: str = "vacuum"):
