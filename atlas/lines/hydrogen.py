@@ -38,6 +38,7 @@ Racah, G. (1942), Phys. Rev. 62, 438 (6j symbols).
 
 from __future__ import annotations
 
+import functools
 import math
 from dataclasses import dataclass
 from fractions import Fraction
@@ -131,21 +132,32 @@ def _radial(n: int, l: int, r: np.ndarray) -> np.ndarray:  # noqa: E741
     return np.exp(log_env) * eval_genlaguerre(n - l - 1, 2 * l + 1, rho)
 
 
+@functools.lru_cache(maxsize=8)
+def _grid(block: int) -> tuple[np.ndarray, np.ndarray]:
+    # x grid (r = x^2, dense near the nucleus) wide enough for every n <= 20 * block.
+    nmax = 20 * block
+    x = np.linspace(0.0, math.sqrt(4.0 * nmax * nmax + 60.0), 20000 * block + 1)
+    return x, x * x
+
+
+@functools.lru_cache(maxsize=512)
+def _radial_on_grid(n: int, l: int, block: int) -> np.ndarray:  # noqa: E741
+    return _radial(n, l, _grid(block)[1])
+
+
 def radial_integral(n1: int, l1: int, n2: int, l2: int) -> float:
     """<n1 l1 | r | n2 l2> for hydrogen (Z = 1, infinite nuclear mass), in Bohr radii.
 
-    Numerical quadrature on a grid dense near the nucleus (r = x^2).  For a
+    Numerical quadrature (Simpson) on a grid dense near the nucleus (r = x^2).  For a
     hydrogen-like ion of charge Z and reduced mass mu divide by Z mu/m_e.
 
     References
     ----------
     Bethe & Salpeter (1957), section 63 (radial integrals; their table 13 for checks).
     """
-    nmax = max(n1, n2)
-    r_max = 4.0 * nmax * nmax + 60.0
-    x = np.linspace(0.0, math.sqrt(r_max), 40001)
-    r = x * x
-    integrand = _radial(n1, l1, r) * _radial(n2, l2, r) * r**3 * (2.0 * x)  # dr = 2x dx
+    block = max(1, math.ceil(max(n1, n2) / 20))
+    x, r = _grid(block)
+    integrand = _radial_on_grid(n1, l1, block) * _radial_on_grid(n2, l2, block) * r**3 * (2.0 * x)
     return float(simpson(integrand, x=x))
 
 
