@@ -259,44 +259,44 @@ class Viewer:
     def _build_widgets(self):
         st = self.state
         names = {f"{r.get('name') or k} ({k})": k for k, r in self.data.records.items()}
-        self.w_star = pn.widgets.Select(name="Star", options=names, value=st.star or None,
+        self.w_star = pn.widgets.Select(label="Star", options=names, value=st.star or None,
                                         sizing_mode="stretch_width")
         self.w_star.param.watch(lambda e: self.choose_star(e.new), "value")
-        self.w_jump = pn.widgets.TextInput(name="Go to (wavelength or line)",
+        self.w_jump = pn.widgets.TextInput(label="Go to (wavelength or line)",
                                            placeholder="6563 · 656.3 nm · Na I 5890 · H I",
                                            sizing_mode="stretch_width")
         self.w_jump.param.watch(lambda e: self.go_to(e.new), "value")
-        self.w_frame = pn.widgets.RadioButtonGroup.from_param(st.param.frame, name="Frame",
-                                                              button_type="light", sizing_mode="stretch_width")
-        self.w_medium = pn.widgets.RadioButtonGroup.from_param(st.param.medium, button_type="light",
+        self.w_frame = pn.widgets.RadioButtonGroup.from_param(st.param.frame,
+                                                              color="light", sizing_mode="stretch_width")
+        self.w_medium = pn.widgets.RadioButtonGroup.from_param(st.param.medium, color="light",
                                                                sizing_mode="stretch_width")
-        self.w_unit = pn.widgets.RadioButtonGroup.from_param(st.param.unit, button_type="light",
+        self.w_unit = pn.widgets.RadioButtonGroup.from_param(st.param.unit, color="light",
                                                              sizing_mode="stretch_width")
-        self.w_flux = pn.widgets.RadioButtonGroup.from_param(st.param.flux, button_type="light",
+        self.w_flux = pn.widgets.RadioButtonGroup.from_param(st.param.flux, color="light",
                                                              sizing_mode="stretch_width")
         species = sorted(set(self._lines["species"])) if self._lines is not None else []
-        self.w_lines = pn.widgets.MultiChoice(name="Line species (empty = all)", options=species,
+        self.w_lines = pn.widgets.MultiChoice(label="Line species (empty = all)", options=species,
                                               value=[s for s in st.lines if s in species],
                                               sizing_mode="stretch_width")
         self.w_lines.param.watch(lambda e: self.state.param.update(lines=list(e.new)), "value")
-        self.w_strength = pn.widgets.IntSlider.from_param(st.param.strength, name="Weakest line class shown",
+        self.w_strength = pn.widgets.IntSlider.from_param(st.param.strength, label="Weakest line class shown",
                                                           sizing_mode="stretch_width")
-        self.w_per_page = pn.widgets.IntSlider.from_param(st.param.per_page, name="Strips per page",
+        self.w_per_page = pn.widgets.IntSlider.from_param(st.param.per_page, label="Strips per page",
                                                           sizing_mode="stretch_width")
-        self.w_copy = pn.widgets.Button(name="Copy link to this view", button_type="primary",
+        self.w_copy = pn.widgets.Button(label="Copy link to this view", color="primary",
                                         sizing_mode="stretch_width")
         self.w_copy.js_on_click(code="""
             const url = window.location.href;
             if (navigator.clipboard) { navigator.clipboard.writeText(url); }
             window.prompt('Link to this view', url);""")
-        b = dict(width=66, button_type="default", margin=(4, 2))
-        self.w_first = pn.widgets.Button(name="⇤ first", description="first page (Home)", **b)
-        self.w_prev_page = pn.widgets.Button(name="◀ page", description="previous page (PageUp)", **b)
-        self.w_prev_strip = pn.widgets.Button(name="↑ strip", description="previous strip (↑ or ←)", **b)
-        self.w_next_strip = pn.widgets.Button(name="↓ strip", description="next strip (↓ or →)", **b)
-        self.w_next_page = pn.widgets.Button(name="page ▶", description="next page (PageDown)", **b)
-        self.w_last = pn.widgets.Button(name="last ⇥", description="last page (End)", **b)
-        self.w_whole = pn.widgets.Button(name="whole strips", width=110, margin=(4, 6))
+        b = dict(width=66, color="default", margin=(4, 2))
+        self.w_first = pn.widgets.Button(label="⇤ first", description="first page (Home)", **b)
+        self.w_prev_page = pn.widgets.Button(label="◀ page", description="previous page (PageUp)", **b)
+        self.w_prev_strip = pn.widgets.Button(label="↑ strip", description="previous strip (↑ or ←)", **b)
+        self.w_next_strip = pn.widgets.Button(label="↓ strip", description="next strip (↓ or →)", **b)
+        self.w_next_page = pn.widgets.Button(label="page ▶", description="next page (PageDown)", **b)
+        self.w_last = pn.widgets.Button(label="last ⇥", description="last page (End)", **b)
+        self.w_whole = pn.widgets.Button(label="whole strips", width=110, margin=(4, 6))
         for w, act in ((self.w_first, "first"), (self.w_prev_page, "page-"), (self.w_prev_strip, "strip-"),
                        (self.w_next_strip, "strip+"), (self.w_next_page, "page+"), (self.w_last, "last"),
                        (self.w_whole, "whole")):

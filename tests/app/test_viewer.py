@@ -1,0 +1,116 @@
+"""The viewer driven from Python (no browser): gestures change the state, views follow it."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+pytest.importorskip("panel")
+
+from atlas.app.data import open_view_atlas  # noqa: E402
+from atlas.app.frames import Frame  # noqa: E402
+from atlas.app.state import ViewState  # noqa: E402
+from atlas.app.viewer import DEFAULT_PX, Viewer, star_card_html, swatch_css  # noqa: E402
+
+
+class _Range:
+    def __init__(self, x0, x1):
+        self.x0, self.x1 = x0, x1
+
+
+@pytest.fixture
+def viewer(built_atlas):
+    data = open_view_atlas(built_atlas)
+    state = ViewState()
+    state.param.update(star="test-star-a", per_page=3)
+    return Viewer(data, state)
+
+
+def shown(v):
+    return [s.strip for s in v.slots if s.fig.visible]
+
+
+def test_pages_step_and_show_other_strips(viewer):
+    assert shown(viewer) == [0, 1, 2]
+    viewer.key("page+")
+    assert viewer.state.page == 2 and shown(viewer) == [3, 4, 5]
+    viewer.key("last")
+    assert shown(viewer)[0] == 9 and viewer.state.page == 4
+    viewer.key("page+")  # stays on the last page
+    assert viewer.state.page == 4
+
+
+def test_strip_steps_move_the_focus_and_turn_pages(viewer):
+    viewer.key("strip+")
+    assert viewer.zoom_strip() == 0
+    for _ in range(3):
+        viewer.key("strip+")
+    assert viewer.zoom_strip() == 3 and viewer.state.page == 2
+
+
+def test_a_zoom_narrows_the_range_and_stays_bounded(viewer):
+    slot = viewer.slots[1]
+    x0, x1 = slot.fig.x_range.start, slot.fig.x_range.end
+    n_full = len(slot.src.data["x"])
+    assert n_full <= 2 * DEFAULT_PX
+    a, b = x0 + 0.4 * (x1 - x0), x0 + 0.45 * (x1 - x0)
+    viewer.on_range(slot, _Range(a, b))
+    assert viewer.state.lo == pytest.approx(a) and viewer.state.hi == pytest.approx(b)
+    assert (slot.fig.x_range.start, slot.fig.x_range.end) == pytest.approx((a, b))
+    xs = slot.src.data["x"]
+    assert 0 < len(xs) <= 2 * DEFAULT_PX
+    assert xs.min() >= a - 0.05 and xs.max() <= b + 0.05
+    assert slot.level == 0  # 5% of a strip: real samples
+    viewer.key("whole")
+    assert viewer.state.lo is None and slot.fig.x_range.start == pytest.approx(x0)
+
+
+def test_frame_changes_keep_the_zoomed_stretch(viewer):
+    slot = viewer.slots[0]
+    x0 = slot.fig.x_range.start
+    viewer.on_range(slot, _Range(x0 + 10, x0 + 12))
+    rec = viewer.record()
+    before = Frame("observed", "air", rec["rv_kms"], rec["barycentric_kms"]).from_display_A(
+        np.array([viewer.state.lo, viewer.state.hi]))
+    viewer.state.frame = "rest"
+    after = viewer.frame().from_display_A(np.array([viewer.state.lo, viewer.state.hi]))
+    np.testing.assert_allclose(after, before, atol=1e-6)
+
+
+def test_go_to_a_line_opens_a_window_on_its_shifted_position(viewer, line_rows):
+    viewer.go_to("Na I 5890")
+    row = line_rows[(line_rows["species"] == "Na I") & (abs(line_rows["air_A"] - 5889.95) < 0.01)].iloc[0]
+    # observed frame: rest vacuum x D(rv) / D(v_bary), Wright & Eastman (2014, PASP 126, 838)
+    expect = Frame("observed", "air", 25.0, -5.0).rest_vac_to_display_A([row["vacuum_A"]])[0]
+    assert viewer.state.lo < expect < viewer.state.hi
+    assert viewer.state.ref.startswith("Na I 5889.9")
+    zs = viewer.zoom_strip()
+    slot = next(s for s in viewer.slots if s.strip == zs)
+    xs = np.asarray(slot.msrc.data["x"])
+    assert np.min(np.abs(xs - expect)) < 1e-6
+
+
+def test_go_to_nonsense_leaves_the_view_and_shows_a_notice(viewer):
+    before = viewer.state.values()
+    viewer.go_to("nowhere at all")
+    assert viewer.state.values() == before
+    assert viewer.notice.visible and "go to" in viewer.notice.object
+
+
+def test_switching_star_resets_page_and_zoom(viewer):
+    viewer.key("page+")
+    viewer.choose_star("test-star-b")
+    assert (viewer.state.star, viewer.state.page, viewer.state.lo) == ("test-star-b", 1, None)
+
+
+def test_the_card_says_not_measured_for_nulls():
+    html = star_card_html({"id": "x", "name": "X", "teff_k": None, "rv_kms": 3.0, "rv_err_kms": 0.5,
+                           "colour_srgb": [1.0, 0.5, 0.0]})
+    assert html.count("not measured") >= 3
+    assert "+3.00 ± 0.50 km/s" in html and "#ff8000" in html
+
+
+@pytest.mark.parametrize("c,expected", [("#a1b2c3", "#a1b2c3"), ([255, 0, 0], "#ff0000"),
+                                        ("red;x", None), ([1, float("nan"), 0], None), (None, None)])
+def test_swatch_colours(c, expected):
+    assert swatch_css(c) == expected
