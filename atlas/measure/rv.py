@@ -640,7 +640,7 @@ def rv_of_spectrum(ds, lines=None, *, site=None, radec=None, time=None,
     bary, missing = correction_for(ds, site=site, radec=radec, time=time)
     res.barycentric_kms = bary
     if bary is None:
-        notes.append("no barycentric correction: missing " + ", ".join(missing))
+        notes.append("no barycentric correction: missing " + ", ".join(missing) + " (give --time/--site/--radec)")
     elif res.rv_obs_kms is not None:
         res.rv_kms = float(apply_kms(res.rv_obs_kms, bary))
     res.vsini_rough_kms = vsini_rough(res.line_fwhm_kms, ds.attrs.get("resolving_power"))
