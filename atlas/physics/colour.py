@@ -62,7 +62,7 @@ def xyz_of_spectrum(wave_A, flux) -> np.ndarray:
 
 
 def _planck_grid(teff_k) -> np.ndarray:
-    return planck.b_lambda(_GRID_NM * 10.0, teff_k)
+    return planck.b_lambda_fast(_GRID_NM * 10.0, teff_k)
 
 
 def _fill_grid(wave_A, flux) -> np.ndarray | None:
