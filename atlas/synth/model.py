@@ -14,7 +14,7 @@ The steps, in order:
    the continuum's source function in a grey atmosphere,
    1 - B_lambda(T0) / B_lambda(Teff) with T0 = 2^(-1/4) Teff (Gray 2005, ch. 9),
    multiplied by ``DEPTH_GAIN`` = 1.4 (our calibration for the steeper temperature
-   gradients of real photospheres) and capped at ``D_MAX`` = 0.92 (our choice): lines
+   gradients of real photospheres) and capped at ``D_MAX`` = 0.88 (our choice): lines
    of hot stars are shallower than those of cool stars, as observed.
 4. Rotational broadening (Gray's kernel) in the star's frame.
 5. Doppler shift by the star's radial velocity and the barycentric correction:
@@ -46,7 +46,7 @@ from atlas.synth.continuum import planck_b_lambda
 from atlas.synth.photosphere import layer
 from atlas.synth.strengths import C_KMS
 
-D_MAX = 0.92
+D_MAX = 0.88
 DEPTH_GAIN = 1.4
 
 

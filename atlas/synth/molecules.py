@@ -21,11 +21,13 @@ so the band has a sharp edge at the head and fades away from it: the sawtooth of
 molecular bands in cool stars.  The rotational lines are not drawn one by one (real
 bands overlap many branches and sub-bands); a ripple 1 + 0.5 cos(2 pi J(lambda)) at the
 positions of the branch's lines gives the band its texture.  The head is smoothed by
-the Doppler width.  L is ``BAND_SCALE_A`` (our own choice, 45 Å).
+the Doppler width.  L is ``BAND_SCALE_A`` per molecule (our own choice, 20-45 Å).
 Bands fade to the red for TiO, VO, CaH and to the violet for CN, CH, MgH, C2
-(from memory).  The band's total oscillator strength comes from the coarse
-``strength`` class of its head in the line list (1 -> 0.01, 2 -> 0.004, 3 -> 0.0015,
-4 -> 0.0005: our own rough scale, not a measurement).  Carbon locked in CO
+(from memory).  The band's total oscillator strength is a per-molecule value ``F_BAND``
+(TiO and VO 0.01, CaH 0.004, CN and C2 0.002, MgH 0.002, CH 0.001: rough values
+of the order of published band-system f-values, from memory) times a factor from
+the coarse ``strength`` class of its head in the line list (1 -> 1, 2 -> 0.4,
+3 -> 0.15, 4 -> 0.05: our own rough scale, not a measurement).  Carbon locked in CO
 (D0 = 11.09 eV, from memory) is not available to CH, CN and C2.  It is a schematic
 band, not a line-by-line molecular calculation.
 
@@ -76,9 +78,9 @@ MOLECULES: dict[str, tuple[str, str, float, float, float, float, str]] = {
 }
 
 #: Band oscillator strength by coarse strength class of the head (our own rough scale).
-F_BAND_BY_STRENGTH = {1: 0.01, 2: 0.004, 3: 0.0015, 4: 0.0005}
-
-BAND_SCALE_A = 45.0
+F_BAND = {"TiO": 0.01, "VO": 0.01, "CaH": 0.004, "MgH": 0.002, "CH": 0.001, "CN": 0.002, "C2": 0.002}
+CLASS_FACTOR = {1: 1.0, 2: 0.4, 3: 0.15, 4: 0.05}
+BAND_SCALE_A = {"TiO": 45.0, "VO": 45.0, "CaH": 30.0, "MgH": 25.0, "CH": 20.0, "CN": 25.0, "C2": 25.0}
 
 
 def molecular_partition(mol: str, t_k: float) -> float:
@@ -129,7 +131,7 @@ def molecule_fraction(mol: str, lay: Layer) -> float:
 
 def add_bands(wave_A: np.ndarray, eta: np.ndarray, lines: pd.DataFrame, lay: Layer, *, micro_kms: float = 1.5, eps: float = 3e-4) -> np.ndarray:
     """Add the opacity ratio of every molecular band head in ``lines`` to ``eta`` on ``wave_A`` (Å)."""
-    rows = lines[(lines["kind"].astype(str) == "band_head") & lines["species"].astype(str).isin(list(MOLECULES))]
+    rows = lines[(lines["kind"].astype(str) == "band_head") & lines["species"].astype(str).isin(list(F_BAND))]
     t = lay.t_k
     for _, row in rows.iterrows():
         mol = str(row["species"])
@@ -139,13 +141,14 @@ def add_bands(wave_A: np.ndarray, eta: np.ndarray, lines: pd.DataFrame, lay: Lay
         n_mol = molecule_fraction(mol, lay)
         kappa = float(kappa_continuum(head, lay))
         s_band = (
-            math.pi * R_E_CM * (head * 1e-8) ** 2 * F_BAND_BY_STRENGTH[cls] * n_mol
+            math.pi * R_E_CM * (head * 1e-8) ** 2 * F_BAND[mol] * CLASS_FACTOR[cls] * n_mol
             * float(stimulated_factor(head, t)) / kappa * 1e8
         )  # Å
-        peak = s_band / BAND_SCALE_A
+        scale = BAND_SCALE_A[mol]
+        peak = s_band / scale
         if peak < eps:
             continue
-        reach = BAND_SCALE_A * math.log(peak / eps)
+        reach = scale * math.log(peak / eps)
         sign = 1.0 if MOLECULES[mol][6] == "red" else -1.0
         lo, hi = (head - 1.0, head + reach) if sign > 0 else (head - reach, head + 1.0)
         a, b = np.searchsorted(wave_A, [lo, hi])
@@ -153,10 +156,10 @@ def add_bands(wave_A: np.ndarray, eta: np.ndarray, lines: pd.DataFrame, lay: Lay
             continue
         d = sign * (wave_A[a:b] - head)  # distance into the band (Å)
         jt2 = t / (_HC_K * MOLECULES[mol][3])
-        a_fortrat = BAND_SCALE_A / jt2
+        a_fortrat = scale / jt2
         j = np.sqrt(np.clip(d, 0.0, None) / a_fortrat)
         mass = (ELEMENTS[MOLECULES[mol][0]][1] + ELEMENTS[MOLECULES[mol][1]][1]) * AMU_G
         sig = float(doppler_sigma_A(head, t, mass, micro_kms))
         edge = 0.5 * (1.0 + erf(d / (math.sqrt(2.0) * sig)))
-        eta[a:b] += peak * np.exp(-np.clip(d, 0.0, None) / BAND_SCALE_A) * (1.0 + 0.5 * np.cos(2.0 * math.pi * j)) * edge
+        eta[a:b] += peak * np.exp(-np.clip(d, 0.0, None) / scale) * (1.0 + 0.5 * np.cos(2.0 * math.pi * j)) * edge
     return eta

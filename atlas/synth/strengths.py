@@ -14,7 +14,7 @@ Widths:
 * Doppler: b^2 = 2 k T / m + xi^2 (thermal plus microturbulence xi), Gaussian
   sigma = lambda b / (c sqrt 2) (Gray 2005, ch. 11).
 * Lorentzian damping of metal lines: radiative (classical rate 0.2223 / lambda_cm^2
-  s^-1, Gray 2005, eq. 11.14), van der Waals gamma_6 = 10^-7.5 N_H (T / 10^4)^0.3 and
+  s^-1, Gray 2005, eq. 11.14), van der Waals gamma_6 = 10^-7.8 N_H (T / 10^4)^0.3 and
   quadratic Stark gamma_4 = 10^-5.5 N_e (rad s^-1; typical per-perturber
   constants, typed **from memory**), HWHM = lambda^2 gamma / (4 pi c).
 * Hydrogen: the linear Stark effect in the Holtsmark normal field
@@ -94,7 +94,7 @@ def damping_hwhm_A(wave_A, lay: Layer):
     """Lorentzian HWHM (Å) of a metal line: radiative + van der Waals + Stark (see module doc)."""
     w = np.asarray(wave_A, dtype=np.float64)
     gamma = 0.2223 / (w * 1e-8) ** 2
-    gamma = gamma + 10.0**-7.5 * lay.n_h * (lay.t_k / 1e4) ** 0.3 + 10.0**-5.5 * lay.n_e
+    gamma = gamma + 10.0**-7.8 * lay.n_h * (lay.t_k / 1e4) ** 0.3 + 10.0**-5.5 * lay.n_e
     return (w * 1e-8) ** 2 * gamma / (4.0 * math.pi * C_CGS) * 1e8
 
 
