@@ -83,8 +83,8 @@ def fit_colour_temperature(wave_A, flux, uncertainty=None, *, t_min_k=1000.0, t_
     """Fit a scaled Planck curve to a spectrum: the colour temperature.
 
     ``wave_A`` in Å, ``flux`` in any per-wavelength unit (any scale),
-    ``uncertainty`` (same unit) optional.  Non-finite or non-positive samples are
-    ignored.  Returns ``(teff_k, teff_err_k, scale)`` where the model is
+    ``uncertainty`` (same unit) optional.  Non-finite samples, and samples whose
+    uncertainty is not positive, are ignored.  Returns ``(teff_k, teff_err_k, scale)`` where the model is
     ``scale * B_lambda(wave_A, teff_k)`` with B_lambda from :func:`b_lambda`.  Without
     uncertainties the error is scaled by the scatter of the residuals.
 

@@ -24,10 +24,10 @@ def _one_line_error(code, err, *fragments):
         assert frag in lines[0]
 
 
-def test_csv_output_parses_with_every_column(run_striae):
-    proc = run_striae("lines", "--csv")
-    assert proc.returncode == 0, proc.stderr
-    df = pd.read_csv(io.StringIO(proc.stdout))
+def test_csv_output_parses_with_every_column(capsys):
+    code, out, err = _run(capsys, "--csv")
+    assert code == 0, err
+    df = pd.read_csv(io.StringIO(out))
     assert tuple(df.columns) == COLUMNS
     assert len(df) > 300
 
@@ -63,6 +63,15 @@ def test_bad_range_is_a_one_line_error(capsys):
         _one_line_error(code, err, "--range")
 
 
-def test_missing_list_file_is_a_one_line_error(run_striae, tmp_path):
+def test_missing_or_bad_list_file_is_a_one_line_error(capsys, tmp_path):
     missing = tmp_path / "none.csv"
-    assert_one_line_error(run_striae("lines", "--list", missing), str(missing), "no such file")
+    code, _, err = _run(capsys, "--list", missing)
+    _one_line_error(code, err, str(missing), "no such file")
+    bad = tmp_path / "bad.csv"
+    bad.write_text("species,air_A\nFe I,5000\n")
+    code, _, err = _run(capsys, "--list", bad)
+    _one_line_error(code, err, str(bad), "missing column vacuum_A")
+
+
+def test_bad_range_in_a_real_process_is_one_line_and_exit_2(run_striae):
+    assert_one_line_error(run_striae("lines", "--range", "b:a"), "--range")
