@@ -24,9 +24,18 @@ REGIONS = (
 )
 
 
-def _binned(wave, flux, width):
-    n = (len(wave) // width) * width
-    return wave[:n].reshape(-1, width).mean(axis=1), np.nanmedian(flux[:n].reshape(-1, width), axis=1)
+def _smoothed(wave, flux, lo_A, hi_A, resolving_power):
+    """Normalised flux on a ln grid (2 km/s) from lo_A to hi_A, smoothed to ``resolving_power``."""
+    from atlas.synth.broaden import convolve_same, instrument_pixels, log_grid
+
+    grid = log_grid(lo_A, hi_A, 2.0)
+    inside = (grid >= wave[0]) & (grid <= wave[-1])
+    f = np.interp(grid, wave, flux)
+    kern = instrument_pixels(resolving_power, 2.0)
+    sm = convolve_same(np.where(inside, f, 0.0), kern)
+    wt = convolve_same(inside.astype(float), kern)
+    out = np.where(inside & (wt > 0.5), sm / np.maximum(wt, 1e-9), np.nan)
+    return grid[::5], out[::5]
 
 
 def _flatten(g):
@@ -42,7 +51,7 @@ def _flatten(g):
     return w, f / c
 
 
-def class_plot(generated, path, *, lo_A: float = 3850.0, hi_A: float = 7300.0, bin_px: int = 6) -> None:
+def class_plot(generated, path, *, lo_A: float = 3850.0, hi_A: float = 7300.0, resolving_power: float = 2500.0) -> None:
     """Write a PNG of every star's normalised spectrum, stacked from hot (top) to cool."""
     import matplotlib
 
@@ -60,21 +69,20 @@ def class_plot(generated, path, *, lo_A: float = 3850.0, hi_A: float = 7300.0, b
         ax.axvspan(a, b, color="0.88", zorder=0, lw=0)
     for i, g in enumerate(stars):
         w, nf = _flatten(g)
-        m = (w >= lo_A) & (w <= hi_A)
-        wb, fb = _binned(w[m], nf[m], bin_px)
+        wb, fb = _smoothed(w, nf, lo_A, hi_A, resolving_power)
         off = step * (len(stars) - 1 - i)
-        ax.plot(wb, fb + off, lw=0.5, color="black")
+        ax.plot(wb, fb + off, lw=0.8, color="black")
         ax.text(hi_A + 15, off + 0.85, f"{g.obs.spectral_class}\n{g.obs.teff_k:,.0f} K", va="center", fontsize=9)
         ax.text(lo_A + 5, off + 1.02, g.obs.name, fontsize=8, color="0.3")
-    placed = []
+    last_x, level = -1e9, 0
     for lab, a, b in REGIONS:
         x = 0.5 * (a + b)
-        lift = 0.12 if any(abs(x - p) < 120 for p in placed) else 0.0
-        ax.text(x, top + lift, lab, rotation=0, ha="center", va="bottom", fontsize=8)
-        placed.append(x)
+        level = (level + 1) % 2 if x - last_x < 150 else 0
+        ax.text(x, top + 0.13 * level, lab, ha="center", va="bottom", fontsize=9)
+        last_x = x
     ax.set_xlim(lo_A, hi_A + 190)
     ax.set_ylim(-0.05, top + 0.35)
-    ax.set_xlabel(f"observed air wavelength (Å), binned to {bin_px} pixels")
+    ax.set_xlabel(f"observed wavelength (Å; air, except the O star in vacuum), smoothed to R = {resolving_power:,.0f} for this overview")
     ax.set_ylabel("flux / continuum, offset by star")
     ax.set_title("Invented demo stars (synthetic spectra), hottest at the top")
     ax.set_yticks([])
