@@ -107,8 +107,10 @@ def _count_pages(data: bytes) -> int:
 
 def test_write_pdf_pages_and_text(tmp_path):
     out = tmp_path / "p.pdf"
-    pages = [PageSpec([_strip(k) for k in range(j * 3, j * 3 + 3)], j + 1, 3) for j in range(3)]
-    n = write_pdf(out, iter(pages), lambda p: _text("Pdf Star Z"), _markers(), [], per_page=3)
+    pages = [PageSpec([_strip(k, n=500) for k in range(j * 2, j * 2 + 2)], j + 1, 3)
+             for j in range(3)]
+    n = write_pdf(out, iter(pages), lambda p: _text("Pdf Star Z"), _markers(step=0.5), [],
+                  per_page=2)
     data = out.read_bytes()
     assert n == 3
     assert data.startswith(b"%PDF")
