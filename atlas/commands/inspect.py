@@ -271,7 +271,13 @@ def readable(rec) -> str:
 
 
 def run(args) -> int:
+    import warnings
+
+    from astropy.utils.exceptions import AstropyWarning
+
     from atlas.errors import InputError
+
+    warnings.simplefilter("ignore", AstropyWarning)  # problems are reported in our own words
 
     site = parse_site(args.site) if args.site is not None else None
     radec = parse_radec(args.radec) if args.radec is not None else None

@@ -21,7 +21,7 @@ from atlas.io.fits_image import _axis_unit, to_sigma
 NAME = "fits_echelle"
 DESCRIPTION = "multi-order echelle FITS: flux image (order x pixel) plus a wavelength image"
 
-WAVE_EXTNAMES = ("WAVELENGTH", "WAVELENGTHS", "WAVE", "LAMBDA")
+WAVE_EXTNAMES = fitsutil.WAVE_EXTNAMES
 
 
 def _is_order_image(extname, header, is_image) -> bool:
@@ -70,7 +70,9 @@ def read(path, *, wave_unit=None, medium=None, **_options):
             if kind and h.is_image and h.data is not None and i != fi:
                 unc = to_sigma(np.asarray(h.data, dtype=np.float64), kind)
                 break
-        unit = _axis_unit(hdul[wi].header.get("BUNIT"), wave_unit, p)
+        unit = _axis_unit(
+            hdul[wi].header.get("BUNIT"), wave_unit, p, "BUNIT of the WAVELENGTH image"
+        )
         file_medium = (
             fitsutil.header_medium(hdul[wi].header)
             or fitsutil.header_medium(hdul[0].header)

@@ -4,7 +4,10 @@ The spectral axis is axis 1, ``CTYPE1`` one of ``WAVE``, ``AWAV`` (linear) or
 ``WAVE-LOG``, ``AWAV-LOG`` (logarithmic), with ``CRVAL1``, ``CRPIX1``, the step
 ``CDELT1`` or ``CD1_1``, and the unit ``CUNIT1``.  Wavelengths are evaluated by
 astropy.wcs (wcslib), never by hand.  ``AWAV*`` means air wavelengths, ``WAVE*``
-vacuum.  An image of shape (1, N) is read as a 1-D spectrum.  An optional
+vacuum.  An image of shape (1, N) is read as a 1-D spectrum.  An image with no
+WCS at all but an image HDU named ``WAVELENGTH`` (``WAVE``, ``LAMBDA``) of the same
+length beside it takes its wavelengths from there (unit in its ``BUNIT``, medium
+from a ``MEDIUM`` keyword), as a one-order echelle file would.  An optional
 uncertainty image of the same length sits in an HDU named ``UNCERTAINTY``,
 ``ERROR``, ``ERR``, ``SIGMA``, ``STDDEV`` or ``NOISE`` (standard deviations),
 ``VARIANCE``/``VAR`` or ``IVAR``/``INVVAR`` (converted to standard deviations).
@@ -68,7 +71,22 @@ def read(path, *, wave_unit=None, medium=None, **_options):
         hdu = hdul[index]
         header = hdu.header.copy()
         flux = np.asarray(hdu.data, dtype=np.float64).reshape(-1)
-        wave_A, file_medium = wavelengths_from_wcs(header, flux.size, p, wave_unit)
+        wave_hdu = _wavelength_image(hdul, index)
+        if wave_hdu is not None and not str(header.get("CTYPE1", "")).strip():
+            # no WCS, but a WAVELENGTH image beside the flux (the one-order echelle layout)
+            wave_A = validate.to_angstrom(
+                np.asarray(wave_hdu.data, dtype=np.float64).reshape(-1),
+                _axis_unit(
+                    wave_hdu.header.get("BUNIT"), wave_unit, p, "BUNIT of the WAVELENGTH image"
+                ),
+            )
+            file_medium = (
+                fitsutil.header_medium(wave_hdu.header)
+                or fitsutil.header_medium(hdul[0].header)
+                or "unknown"
+            )
+        else:
+            wave_A, file_medium = wavelengths_from_wcs(header, flux.size, p, wave_unit)
         unc = _uncertainty(hdul, index, p)
         attrs = fitsutil.header_metadata(
             fitsutil.merged_header(hdul[0].header if index else None, header)
@@ -116,11 +134,11 @@ def wavelengths_from_wcs(header, n: int, path, wave_unit=None) -> tuple[np.ndarr
     return validate.to_angstrom(world, out_unit), SPECTRAL_CTYPES[ctype]
 
 
-def _axis_unit(file_unit, wave_unit, path):
+def _axis_unit(file_unit, wave_unit, path, keyword: str = "CUNIT1"):
     """The wavelength unit: the file's, else ``wave_unit``; both must agree when both are given."""
     has_file = file_unit is not None and str(file_unit).strip() != ""
     if has_file:
-        unit = validate.wavelength_unit(file_unit, path, "the spectral axis (CUNIT1)")
+        unit = validate.wavelength_unit(file_unit, path, f"the wavelengths ({keyword})")
         if wave_unit is not None:
             opt = validate.wavelength_unit(wave_unit, "--wave-unit", "wavelengths")
             if opt != unit:
@@ -129,8 +147,17 @@ def _axis_unit(file_unit, wave_unit, path):
                 )
         return unit
     if wave_unit is None:
-        raise InputError(path, "no wavelength unit: CUNIT1 missing; give it with --wave-unit")
+        raise InputError(path, f"no wavelength unit: {keyword} missing; give it with --wave-unit")
     return validate.wavelength_unit(wave_unit, "--wave-unit", "wavelengths")
+
+
+def _wavelength_image(hdul, index):
+    """An image HDU named WAVELENGTH (or WAVE, LAMBDA) other than the flux HDU, or None."""
+    for i, hdu in enumerate(hdul):
+        name = str(hdu.header.get("EXTNAME", "")).strip().upper()
+        if i != index and hdu.is_image and hdu.data is not None and name in fitsutil.WAVE_EXTNAMES:
+            return hdu
+    return None
 
 
 def _uncertainty(hdul, index, path):

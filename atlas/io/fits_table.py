@@ -110,7 +110,7 @@ def read(path, *, wave_unit=None, medium=None, **_options):
         flux = _column(data, fcol, p)
         unc = None if ucol is None else to_sigma(_column(data, ucol, p), kind)
         cols = {c.name: c for c in hdu.columns}
-        unit = _axis_unit(cols[wcol].unit, wave_unit, p)
+        unit = _axis_unit(cols[wcol].unit, wave_unit, p, f"TUNIT of column {wcol!r}")
         file_medium = _medium(cols[wcol], hdu.header, hdul[0].header)
         header = fitsutil.merged_header(hdul[0].header if i else None, hdu.header)
         attrs = fitsutil.header_metadata(header)

@@ -46,6 +46,9 @@ UNCERTAINTY_NAMES = {
     "INVVAR": "ivar",
 }
 
+#: EXTNAMEs of an image holding each pixel's wavelength.
+WAVE_EXTNAMES = ("WAVELENGTH", "WAVELENGTHS", "WAVE", "LAMBDA")
+
 _TIME_SCALES = {"UTC", "TAI", "TT", "TDB", "TCG", "TCB", "UT1"}
 
 

@@ -90,11 +90,11 @@ def can_read(path) -> bool:
     if not raw or b"\x00" in raw or raw.startswith(b"SIMPLE  ="):
         return False
     try:
-        text = raw.decode("utf-8")
+        text = raw.decode("utf-8-sig")
     except UnicodeDecodeError:
         # a multi-byte character cut at the end of the sample is fine
         try:
-            text = raw[:-4].decode("utf-8")
+            text = raw[:-4].decode("utf-8-sig")
         except UnicodeDecodeError:
             return False
     header = _first_header(text)
@@ -255,7 +255,7 @@ def _numbers(path, lines, header_at, delim, ncol) -> np.ndarray:
             na_values=["", "nan", "NaN", "NAN", "null", "NULL", "-"],
             keep_default_na=True,
             skipinitialspace=True,
-            engine="c" if delim else "python",
+            engine="c",
         )
     except (ValueError, TypeError):
         for k, s in enumerate(rows):

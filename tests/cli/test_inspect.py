@@ -116,8 +116,8 @@ def test_json_for_one_file_is_one_object_with_the_documented_keys(run_striae, fi
     assert rec["barycentric_missing"] == []
 
 
-def test_json_for_several_files_is_a_list(run_striae, fits_file, csv_file):
-    proc = run_striae("inspect", "--json", fits_file, csv_file)
+def test_json_for_several_files_is_a_list(capsys, fits_file, csv_file):
+    proc = _main(capsys, "--json", fits_file, csv_file)
     assert proc.returncode == 0, proc.stderr
     recs = json.loads(proc.stdout)
     assert isinstance(recs, list) and [set(r) for r in recs] == [KEYS, KEYS]

@@ -247,3 +247,14 @@ def test_unsupported_ctype_is_no_spectral_axis(write_image):
     path, _ = write_image(_flux(), **dict(WCS_LINEAR, CTYPE1="FREQ", CUNIT1="Hz"))
     with pytest.raises(InputError, match="no spectral axis: CTYPE1 is 'FREQ'"):
         atlas.io.read(path)
+
+
+def test_image_without_wcs_takes_a_wavelength_image_beside_it(write_image):
+    wave_nm = np.linspace(650.0, 660.0, N)
+    w = fits.ImageHDU(wave_nm, name="WAVELENGTH")
+    w.header["BUNIT"] = "nm"
+    w.header["MEDIUM"] = "air"
+    path, _ = write_image(_flux(), extra_hdus=[w])
+    ds = atlas.io.read(path)
+    np.testing.assert_allclose(ds["wavelength"].values, wave_nm * 10.0)  # 1 nm = 10 Å (SI)
+    assert ds["wavelength"].attrs["medium"] == "air" and ds.sizes["sample"] == N

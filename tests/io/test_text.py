@@ -142,3 +142,11 @@ def test_bad_comment_values_name_the_line(write_text, comment, fragment):
 def test_headerless_numbers_are_refused(write_text):
     with pytest.raises(InputError, match="no header line"):
         atlas.io.read(write_text(_rows(WAVE_A)))
+
+
+def test_byte_order_mark_and_crlf_line_ends(tmp_path):
+    path = tmp_path / "excel.csv"
+    body = "\r\n".join(["wavelength_A;flux", *_rows(WAVE_A, sep=";")]) + "\r\n"
+    path.write_bytes(b"\xef\xbb\xbf" + body.encode())
+    assert atlas.io.detect(path) == "text"
+    np.testing.assert_allclose(atlas.io.read(path)["wavelength"].values, WAVE_A)
