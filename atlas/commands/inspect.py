@@ -232,7 +232,7 @@ def readable(rec) -> str:
             medium + ("" if medium != "unknown" else " (the file does not say; use --medium)"),
         )
     )
-    rows.append(("sampling", f"{_fmt(rec['sampling_kms'], '.4g')} km/s per pixel (median)"))
+    rows.append(("sampling", f"{_fmt(rec['sampling_kms'], '.3f')} km/s per pixel (median)"))
     rp = f"{_fmt(rec['resolving_power'], ',.0f')} at most, from the sampling (2 pixels per element)"
     if rec["resolving_power_header"] is not None:
         rp += f"; file says {rec['resolving_power_header']:,.0f}"
