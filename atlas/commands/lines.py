@@ -84,6 +84,17 @@ def run(args) -> int:
 
     lo, hi = parse_range(args.wave_range)
     lines = load_lines(args.list_path)
+    if args.species is not None:
+        wanted = [w.strip() for w in args.species.split(",") if w.strip()]
+        if not wanted:
+            raise InputError("--species", "give one or more species, e.g. 'Fe II' or 'Fe,Ca II'")
+        for w in wanted:
+            if select(lines, species=w).empty:
+                raise InputError(
+                    "--species",
+                    f"no {w!r} in the line list; write species like 'Fe I', 'Ca II', 'TiO' "
+                    "or an element alone such as 'Fe'",
+                )
     rows = select(lines, species=args.species, lo_A=lo, hi_A=hi, medium=args.medium)
     if args.csv:
         out = rows.loc[:, list(COLUMNS)].copy()

@@ -137,8 +137,10 @@ def correction_for(ds, *, site=None, radec=None, time=None):
             raise InputError(
                 "--site", f"expected latitude, longitude, height_m; got {site!r}"
             ) from None
-        if not (-90 <= lat <= 90 and np.isfinite(lon) and np.isfinite(h)):
+        if not -90 <= lat <= 90:
             raise InputError("--site", f"latitude must be within -90..90 degrees; got {lat}")
+        if not (np.isfinite(lon) and np.isfinite(h)):
+            raise InputError("--site", f"longitude and height must be finite numbers; got {site!r}")
     elif all(_finite(attrs.get(k)) for k in ("site_lat_deg", "site_lon_deg")):
         lat, lon = float(attrs["site_lat_deg"]), float(attrs["site_lon_deg"])
         h = float(attrs["site_height_m"]) if _finite(attrs.get("site_height_m")) else 0.0
@@ -153,8 +155,10 @@ def correction_for(ds, *, site=None, radec=None, time=None):
             ra, dec = (float(x) for x in radec)
         except (TypeError, ValueError):
             raise InputError("--radec", f"expected ra_deg, dec_deg; got {radec!r}") from None
-        if not (-90 <= dec <= 90 and np.isfinite(ra)):
+        if not -90 <= dec <= 90:
             raise InputError("--radec", f"declination must be within -90..90 degrees; got {dec}")
+        if not np.isfinite(ra):
+            raise InputError("--radec", f"right ascension must be a finite number; got {ra}")
     elif all(_finite(attrs.get(k)) for k in ("ra_deg", "dec_deg")):
         ra, dec = float(attrs["ra_deg"]), float(attrs["dec_deg"])
         if not -90 <= dec <= 90:

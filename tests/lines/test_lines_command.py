@@ -75,3 +75,8 @@ def test_missing_or_bad_list_file_is_a_one_line_error(capsys, tmp_path):
 
 def test_bad_range_in_a_real_process_is_one_line_and_exit_2(run_striae):
     assert_one_line_error(run_striae("lines", "--range", "b:a"), "--range")
+
+
+def test_unknown_species_is_a_one_line_error(capsys):
+    code, _, err = _run(capsys, "--species", "FeI")
+    _one_line_error(code, err, "--species", "FeI")
