@@ -1,0 +1,100 @@
+"""A build killed at any moment leaves the previous atlas readable and unchanged."""
+
+from __future__ import annotations
+
+import hashlib
+import os
+import signal
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from atlas.build import build_atlas
+from atlas.lod import clear_cache, window
+from atlas.store import open_atlas
+
+from ._data import star_files
+
+pytest.importorskip("atlas.io")
+
+
+def _snapshot(atlas: Path) -> dict:
+    """Bytes digest of atlas.json and of every file in the stores it names."""
+    out = {"atlas.json": hashlib.sha256((atlas / "atlas.json").read_bytes()).hexdigest()}
+    for rec in open_atlas(atlas).stars:
+        for p in sorted((atlas / rec["store"]).rglob("*")):
+            if p.is_file():
+                out[str(p.relative_to(atlas))] = hashlib.sha256(p.read_bytes()).hexdigest()
+    return out
+
+
+def _readable(atlas: Path):
+    clear_cache()
+    a = open_atlas(atlas)
+    for rec in a.stars:
+        ds = a.star(rec["id"]).load()
+        assert ds.sizes["strip"] == rec["strips"]
+        r = window(ds, 0, 0.0, 1e9, 500)
+        assert len(r["wavelength"]) <= 500
+
+
+def _new_stores(atlas: Path, old: set) -> set:
+    d = atlas / "stars"
+    return {p.name for p in d.iterdir()} - old if d.exists() else set()
+
+
+@pytest.mark.slow
+def test_killed_build_leaves_the_old_atlas_as_it_was(tmp_path):
+    files = star_files(tmp_path, 3, n=40_000)
+    atlas = tmp_path / "atlas"
+    build_atlas(files, atlas, progress=False)
+    before = _snapshot(atlas)
+    old_stores = {p.name for p in (atlas / "stars").iterdir()}
+    _readable(atlas)
+
+    env = dict(os.environ)
+    # The build runs as the striae command in its own process, with the numpy Planck
+    # function of conftest.py (same values, faster) so the kills land within seconds.
+    code = (
+        "import sys, importlib.util as iu; spec = iu.spec_from_file_location('c', sys.argv[1]);"
+        " m = iu.module_from_spec(spec); spec.loader.exec_module(m);"
+        " from atlas.physics import planck; planck.b_lambda = m.fast_b_lambda;"
+        " from atlas import cli; sys.exit(cli.main(sys.argv[2:]))"
+    )
+    conf = str(Path(__file__).with_name("conftest.py"))
+    cmd = [sys.executable, "-c", code, conf, "build", *map(str, files), "--out", str(atlas), "--force", "--quiet"]
+    # Moments: while starting up; as the first new store appears; as the second appears
+    # (the first complete, the second being written).
+    moments = [("start", lambda: False, 1.0), ("first store", lambda: len(_new_stores(atlas, old_stores)) >= 1, None),
+               ("second store", lambda: len(_new_stores(atlas, old_stores)) >= 2, None)]
+    killed_before_commit = 0
+    for name, ready, after_s in moments:
+        proc = subprocess.Popen(cmd, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL, env=env, cwd=tmp_path)
+        t0 = time.monotonic()
+        while proc.poll() is None and time.monotonic() - t0 < 120:
+            if ready() or (after_s is not None and time.monotonic() - t0 >= after_s):
+                break
+            time.sleep(0.005)
+        finished = proc.poll() is not None
+        proc.send_signal(signal.SIGKILL)
+        proc.wait()
+        if finished:  # the build won the race and committed: the new atlas must be whole
+            _readable(atlas)
+            continue
+        killed_before_commit += 1
+        assert _snapshot(atlas) == before, f"killed at {name}: the old atlas changed"
+        _readable(atlas)
+    assert killed_before_commit >= 2
+
+    # A full build afterwards commits and removes every partial store left by the kills.
+    rep = build_atlas(files, atlas, force=True, progress=False)
+    assert rep.committed
+    names = {r["store"].split("/")[1] for r in rep.catalog["stars"]}
+    assert {p.name for p in (atlas / "stars").iterdir()} == names
+    assert not list(atlas.glob(".atlas.json.*"))
+    _readable(atlas)
+    assert np.all([r["strips"] > 0 for r in rep.catalog["stars"]])
