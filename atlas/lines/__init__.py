@@ -113,12 +113,15 @@ def validate(df: pd.DataFrame, where="lines") -> pd.DataFrame:
 @functools.lru_cache(maxsize=8)
 def _load_cached(path: str, mtime: float) -> pd.DataFrame:
     try:
-        raw = pd.read_csv(path, dtype=str, keep_default_na=False, skipinitialspace=True)
+        raw = pd.read_csv(
+            path, dtype=str, keep_default_na=False, skipinitialspace=True, encoding="utf-8-sig"
+        )
     except FileNotFoundError:
         raise InputError(path, "no such file") from None
     except (pd.errors.ParserError, pd.errors.EmptyDataError, UnicodeDecodeError) as exc:
         reason = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
         raise InputError(path, f"not a readable CSV line list ({reason})") from None
+    raw.columns = [str(c).strip() for c in raw.columns]
     return validate(raw, path)
 
 

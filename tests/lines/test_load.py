@@ -152,3 +152,11 @@ def test_missing_and_unreadable_files(tmp_path):
     with pytest.raises(InputError) as exc:
         load_lines(empty)
     assert exc.value.where == str(empty)
+
+
+def test_spreadsheet_style_csv_with_bom_and_spaces_loads(tmp_path):
+    p = tmp_path / "excel.csv"
+    text = _good().to_csv(index=False).replace("species,air_A", "species, air_A")
+    p.write_bytes(b"\xef\xbb\xbf" + text.encode("utf-8"))
+    df = load_lines(p)
+    assert list(df["species"]) == ["Fe I", "X"]
