@@ -53,8 +53,8 @@ METADATA_KEYS = {
 
 TEXT_EXTENSIONS = (".csv", ".tsv", ".txt", ".dat", ".tab", ".ascii")
 _WAVE_RE = re.compile(
-    r"^(?:wavelength|wavelen|wave|lambda|wl|lam)(?:\s*[_\-\s]\s*|\s*(?=[\(\[]))?"
-    r"(?:[\(\[]\s*(?P<u1>[^\)\]]+?)\s*[\)\]]|(?P<u2>[^\s\(\)\[\]]+))?$",
+    r"^(?:wavelength|wavelen|wave|lambda|wl|lam)s?"
+    r"(?:\s*[\(\[]\s*(?P<u1>[^\)\]]+?)\s*[\)\]]|[_\-\s]+(?P<u2>[^\s\(\)\[\]]+))?$",
     re.IGNORECASE,
 )
 _COMMENT_RE = re.compile(r"^#\s*([A-Za-z_][A-Za-z0-9_\-]*)\s*[:=]\s*(.*?)\s*$")

@@ -150,3 +150,12 @@ def test_byte_order_mark_and_crlf_line_ends(tmp_path):
     path.write_bytes(b"\xef\xbb\xbf" + body.encode())
     assert atlas.io.detect(path) == "text"
     np.testing.assert_allclose(atlas.io.read(path)["wavelength"].values, WAVE_A)
+
+
+def test_wavenumber_is_not_a_wavelength_column_and_plural_is(write_text):
+    with pytest.raises(InputError, match="no spectral axis"):
+        atlas.io.read(write_text(["wavenumber,flux", *_rows(WAVE_A)]))
+    ds = atlas.io.read(
+        write_text(["Wavelengths,flux", *_rows(WAVE_A)], name="b.csv"), wave_unit="A"
+    )
+    np.testing.assert_allclose(ds["wavelength"].values, WAVE_A)
