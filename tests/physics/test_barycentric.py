@@ -178,3 +178,21 @@ def test_bad_file_time_names_the_file():
     with pytest.raises(InputError) as exc:
         bc.correction_for(ds, site=SITE)
     assert exc.value.where == "star.fits"
+
+
+def test_works_offline_with_the_bundled_iers_tables(monkeypatch):
+    # Project rule: nothing is downloaded at run time.  Any socket connection fails here,
+    # so a silent IERS download attempt would make this raise.
+    import socket
+
+    from astropy.utils import iers
+
+    def no_network(*args, **kwargs):
+        raise OSError("network access attempted")
+
+    monkeypatch.setattr(socket.socket, "connect", no_network)
+    assert iers.conf.auto_download is False and iers.conf.auto_max_age is None
+    for t in ("1995-01-01T00:00:00", "2026-11-30T22:00:00"):
+        v = bc.correction_kms(t, *TARGET, *SITE)
+        assert abs(v) < 30.8
+        assert np.isfinite(bc.bjd_tdb(t, *TARGET, *SITE))
