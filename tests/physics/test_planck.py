@@ -100,3 +100,12 @@ def test_fast_planck_used_in_fits_matches_astropy_blackbody():
         np.testing.assert_allclose(
             planck.b_lambda_fast(wave, t), planck.b_lambda(wave, t), rtol=1e-10
         )
+
+
+def test_quantity_version_accepts_any_spectral_unit():
+    # Reference: astropy BlackBody; 5000 Å = 500 nm = c / 5000 Å in Hz (astropy u.spectral).
+    ref = planck.b_lambda(5000.0, 5772.0)
+    for x in (5000.0 * u.AA, 500.0 * u.nm, (5000.0 * u.AA).to(u.Hz, equivalencies=u.spectral())):
+        q = planck.b_lambda_q(x, 5772.0 * u.K)
+        assert q.unit == planck.B_LAMBDA_UNIT
+        assert q.value == pytest.approx(ref, rel=1e-10)
