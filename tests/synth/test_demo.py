@@ -85,14 +85,41 @@ def test_requested_snr_is_in_the_files():
     assert der == pytest.approx(o.snr, rel=0.06)
 
 
-def test_demo_command_rejects_bad_plot_name(run_striae, tmp_path):
-    proc = run_striae("demo", "--out", tmp_path / "d", "--plot", tmp_path / "x.txt")
+def run_in_process(capsys, *args):
+    """Run ``striae`` in this process (quicker than a subprocess); returns returncode and stderr."""
+    from types import SimpleNamespace
+
+    from atlas.cli import main
+
+    code = main([str(a) for a in args])
+    return SimpleNamespace(returncode=code, stderr=capsys.readouterr().err)
+
+
+def test_demo_command_rejects_bad_plot_name(capsys, tmp_path):
+    proc = run_in_process(capsys, "demo", "--out", tmp_path / "d", "--plot", tmp_path / "x.txt")
     assert_one_line_error(proc, "--plot")
     assert not (tmp_path / "d").exists()
 
 
-def test_demo_command_rejects_out_that_is_a_file(run_striae, tmp_path):
+def test_demo_command_rejects_out_that_is_a_file(capsys, tmp_path):
     f = tmp_path / "afile"
     f.write_text("x")
-    proc = run_striae("demo", "--out", f)
+    proc = run_in_process(capsys, "demo", "--out", f)
     assert_one_line_error(proc, "--out")
+
+
+@pytest.mark.slow
+def test_striae_inspect_reads_every_demo_file(run_striae):
+    import json
+
+    pytest.importorskip("atlas.commands.inspect")
+    files = [DEMO / o.file for o in demo.OBSERVATIONS]
+    proc = run_striae("inspect", "--json", *files)
+    assert proc.returncode == 0, proc.stderr
+    records = {Path(r["file"]).name: r for r in json.loads(proc.stdout)}
+    assert set(records) == {o.file for o in demo.OBSERVATIONS}
+    for o in demo.OBSERVATIONS:
+        r = records[o.file]
+        assert r["target"] == o.name and r["medium"] == o.medium
+        # same astropy barycentric correction (Wright & Eastman 2014) from the file's header
+        assert r["barycentric_kms"] == pytest.approx(demo.barycentric_kms(o), abs=1e-3)
