@@ -109,3 +109,19 @@ def test_quantity_version_accepts_any_spectral_unit():
         q = planck.b_lambda_q(x, 5772.0 * u.K)
         assert q.unit == planck.B_LAMBDA_UNIT
         assert q.value == pytest.approx(ref, rel=1e-10)
+
+
+def test_binning_long_spectra_keeps_the_fit_and_its_error(monkeypatch):
+    # Documented shortcut: more than 8192 samples are averaged into 4096 bins first.
+    # Averaging Gaussian noise over bins much narrower than the Planck curve's curvature
+    # keeps the least-squares estimate and its error (common practice).
+    rng = np.random.default_rng(7)
+    wave = np.linspace(3800.0, 9000.0, 40000)
+    clean = planck.b_lambda_fast(wave, 4800.0)
+    sigma = 0.05 * clean
+    flux = clean + sigma * rng.standard_normal(wave.size)
+    binned = planck.fit_colour_temperature(wave, flux, sigma)
+    monkeypatch.setattr(planck, "_MAX_FIT_SAMPLES", 10**9)
+    full = planck.fit_colour_temperature(wave, flux, sigma)
+    assert abs(binned[0] - full[0]) < 0.2 * full[1]
+    assert binned[1] == pytest.approx(full[1], rel=0.1)
