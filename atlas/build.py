@@ -245,8 +245,11 @@ def build_star(path: str, options: BuildOptions, atlas_url: str, sha: str, in_us
     wmin, wmax = float(seq["wavelength"][0]), float(seq["wavelength"][-1])
     if plan.mode == "orders":
         wmin, wmax = float(np.min(seq["wavelength"])), float(np.max(seq["wavelength"]))
+    vac_vars = {"flux": ("sample", seq["flux"]), "mask": ("sample", seq["mask"])}
+    if seq.get("uncertainty") is not None:
+        vac_vars["uncertainty"] = ("sample", seq["uncertainty"])
     vac = xr.Dataset(
-        {"flux": ("sample", seq["flux"]), "mask": ("sample", seq["mask"])},
+        vac_vars,
         coords={"wavelength": ("sample", seq["wavelength"], {"medium": "vacuum"})},
         attrs=dict(ds.attrs),
     )

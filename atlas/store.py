@@ -47,6 +47,7 @@ _STORE_RE = re.compile(r"stars/[a-z0-9][a-z0-9-]{0,80}\.zarr")
 def slugify(text: str, fallback: str = "star") -> str:
     """A star id from a name: lower case ASCII letters, digits and hyphens, at most 64 characters."""
     s = unicodedata.normalize("NFKD", str(text)).encode("ascii", "ignore").decode()
+    s = re.sub(r"['`]", "", s)  # "Corran's Star" -> corrans-star
     s = re.sub(r"[^a-z0-9]+", "-", s.lower()).strip("-")
     s = s[:64].rstrip("-")
     return s or fallback

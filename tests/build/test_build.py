@@ -230,5 +230,6 @@ def test_slugs():
     assert store.slugify("HD 12345 A") == "hd-12345-a"
     assert store.slugify("  Æther  Stella ") == "ther-stella"
     assert store.slugify("***") == "star"
+    assert store.slugify("Corran's Star") == "corrans-star"
     assert len(store.slugify("x" * 200)) == 64
     assert store.unique_id("a", {"a", "a-2"}) == "a-3"

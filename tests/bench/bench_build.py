@@ -1,0 +1,194 @@
+"""Benchmark of the atlas build: throughput, parallel speed-up, peak memory, window query time.
+
+Prints figures with their targets; never fails on them (the machine is shared and noisy).
+Run: .venv/bin/python tests/bench/bench_build.py  (or ``make bench``).  The spectra are
+invented benchmark data written to a temporary folder.
+
+1. Throughput against a plain ``xarray.Dataset.to_zarr`` of the same arrays, timed in the
+   same run: the storage pipeline (strips, continuum, envelopes, store) and the whole
+   per-star build (read file, measurements, store).  Target: ratio >= 0.5.
+2. Two dask worker processes against serial on 20 spectra (LocalCluster start-up
+   included).  Target: speed-up >= 1.6x.
+3. Peak memory building one 10-million-sample spectrum, in a child process (peak RSS
+   above the RSS after imports, over the in-memory size of the Spectrum).  Target: <= 4x.
+4. ``atlas.lod.window`` on a strip of that star once its chunk is cached.  Target: < ~5 ms.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import shutil
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+import numpy as np
+
+ROOT = Path(__file__).resolve().parents[2]
+sys.path.insert(0, str(ROOT))
+
+C_KMS = 299792.458
+
+
+def write_fits(path, n, start_A=3800.0, step_kms=1.0, seed=0, target="Bench Star"):
+    """A 1-D FITS image with a log-linear wavelength axis (vacuum): invented absorption spectrum."""
+    from astropy.io import fits
+
+    rng = np.random.default_rng(seed)
+    lnw = np.log(start_A) + np.arange(n) * step_kms / C_KMS
+    wave = np.exp(lnw)
+    flux = 1000.0 * (1.0 + 0.3 * np.sin((wave - start_A) / 700.0))
+    prof = np.ones(n)
+    for c in rng.uniform(wave[0], wave[-1], max(10, n // 2000)):
+        i = np.searchsorted(wave, c)
+        sl = slice(max(0, i - 60), i + 60)
+        prof[sl] *= 1.0 - rng.uniform(0.1, 0.8) * np.exp(-0.5 * ((wave[sl] - c) / (c * 5 / C_KMS)) ** 2)
+    flux = (flux * prof * (1 + rng.normal(0, 0.01, n))).astype(np.float32)
+    h = fits.Header()
+    h["CTYPE1"] = "WAVE-LOG"
+    h["CUNIT1"] = "Angstrom"
+    h["CRPIX1"] = 1.0
+    h["CRVAL1"] = float(start_A)
+    h["CDELT1"] = float(start_A * step_kms / C_KMS)
+    h["OBJECT"] = target
+    fits.PrimaryHDU(flux, header=h).writeto(path, overwrite=True)
+    return path
+
+
+def _plain_to_zarr(ds, url):
+    t0 = time.perf_counter()
+    ds.to_zarr(url, mode="w", zarr_format=3, consolidated=True)
+    return time.perf_counter() - t0
+
+
+def bench_throughput(tmp: Path, n=2_000_000):
+    import warnings
+
+    from atlas.build import BuildOptions, _strips_per_chunk, build_star, prepare, star_arrays
+    from atlas.io import read
+    from atlas.spectrum import sha256_of
+    from atlas.store import write_star
+
+    warnings.filterwarnings("ignore", message="Consolidated metadata")
+    path = write_fits(tmp / "one.fits", n)
+    ds = read(path).load()
+    plain = min(_plain_to_zarr(ds, str(tmp / f"plain{i}.zarr")) for i in range(2))
+    opts = BuildOptions()
+    best = float("inf")
+    for i in range(2):
+        t0 = time.perf_counter()
+        seq, plan, _ = prepare(ds, opts)
+        root, levels = star_arrays(seq, plan)
+        del seq
+        write_star(str(tmp / f"ours{i}"), "stars/x-0.zarr", root, levels,
+                   _strips_per_chunk(root.sizes["pixel"], root.sizes["strip"]))
+        best = min(best, time.perf_counter() - t0)
+        del root, levels
+    sha = sha256_of(path)
+    t0 = time.perf_counter()
+    build_star(str(path), opts, str(tmp / "full"), sha, frozenset())
+    full = time.perf_counter() - t0
+    t0 = time.perf_counter()
+    read(path).load()
+    t_read = time.perf_counter() - t0
+    print(f"throughput, {n:,} samples:")
+    print(f"  plain to_zarr of the Spectrum arrays   {plain:6.2f} s  ({n / plain / 1e6:5.2f} M samples/s)")
+    print(f"  strips+continuum+envelopes+store       {best:6.2f} s  ({n / best / 1e6:5.2f} M samples/s)"
+          f"  ratio {plain / best:.2f}  (target >= 0.5)")
+    print(f"  whole per-star build (read, measure)   {full:6.2f} s  ({n / full / 1e6:5.2f} M samples/s)"
+          f"  ratio {(plain + t_read) / full:.2f} against read + plain to_zarr")
+
+
+def bench_parallel(tmp: Path, count=20, n=150_000):
+    from atlas.build import build_atlas
+
+    folder = tmp / "many"
+    folder.mkdir()
+    files = [write_fits(folder / f"s{i:02d}.fits", n, start_A=3800 + 10 * i, seed=i, target=f"Bench {i}")
+             for i in range(count)]
+    t0 = time.perf_counter()
+    build_atlas(files, str(tmp / "serial"), progress=False, out=open(os.devnull, "w"))
+    serial = time.perf_counter() - t0
+    t0 = time.perf_counter()
+    build_atlas(files, str(tmp / "par"), workers=2, progress=False, out=open(os.devnull, "w"))
+    par = time.perf_counter() - t0
+    print(f"parallel, {count} spectra of {n:,} samples:")
+    print(f"  serial {serial:.1f} s, 2 dask workers {par:.1f} s (cluster start-up included):"
+          f" speed-up {serial / par:.2f}x  (target >= 1.6x)")
+
+
+_CHILD = r"""
+import json, os, resource, sys, time
+import psutil
+sys.path.insert(0, sys.argv[3])
+from atlas.build import build_atlas
+from atlas.io import read
+import atlas.measure.card, atlas.physics.colour, atlas.physics.barycentric, atlas.physics.airvac
+base = psutil.Process().memory_info().rss
+t0 = time.perf_counter()
+rep = build_atlas([sys.argv[1]], sys.argv[2], progress=False, out=open(os.devnull, "w"))
+t = time.perf_counter() - t0
+peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss * 1024
+size = read(sys.argv[1]).nbytes
+print(json.dumps({"base": base, "peak": peak, "size": size, "seconds": t, "ok": rep.committed}))
+"""
+
+
+def bench_memory(tmp: Path, n=10_000_000):
+    path = write_fits(tmp / "big.fits", n, start_A=3000.0, step_kms=0.1, seed=7)
+    out = subprocess.run([sys.executable, "-c", _CHILD, str(path), str(tmp / "big-atlas"), str(ROOT)],
+                         capture_output=True, text=True, check=True)
+    r = json.loads(out.stdout.strip().splitlines()[-1])
+    extra = r["peak"] - r["base"]
+    print(f"memory, one spectrum of {n:,} samples ({r['size'] / 2**20:.0f} MiB in memory), built in {r['seconds']:.1f} s:")
+    print(f"  peak RSS {r['peak'] / 2**20:.0f} MiB, {extra / 2**20:.0f} MiB above the {r['base'] / 2**20:.0f} MiB after imports:"
+          f" {extra / r['size']:.2f}x the spectrum  (target <= 4x)")
+    return tmp / "big-atlas"
+
+
+def bench_window(atlas_path: Path):
+    from atlas.lod import window
+    from atlas.store import open_atlas
+
+    a = open_atlas(atlas_path)
+    sid = a.ids[0]
+    star = a.star(sid)
+    k = star.sizes["strip"] // 2
+    w = star["wavelength"].isel(strip=k).values
+    lo, hi = np.nanmin(w), np.nanmax(w)
+    window(star, k, lo, hi, 2000)  # decode and cache
+    times = {}
+    for label, (a_, b_, mp) in {"whole strip, 2000 points": (lo, hi, 2000),
+                                "1/10 of a strip, 2000 points": (lo, lo + (hi - lo) / 10, 2000),
+                                "zoomed in, raw samples": (lo, lo + (hi - lo) / 100, 2000)}.items():
+        reps = []
+        for _ in range(200):
+            t0 = time.perf_counter()
+            r = window(star, k, a_, b_, mp)
+            reps.append(time.perf_counter() - t0)
+        times[label] = (np.median(reps) * 1e3, r["level"], len(r["wavelength"]))
+    t0 = time.perf_counter()
+    window(star, k + 1, lo, hi, 2000)
+    first = (time.perf_counter() - t0) * 1e3
+    print(f"window query on a strip of the {star.sizes['strip']}-strip, 10M-sample star (cached; target < ~5 ms):")
+    for label, (ms, lev, npts) in times.items():
+        print(f"  {label:30s} {ms:7.3f} ms  (level {lev}, {npts} points)")
+    print(f"  first query of an uncached strip   {first:7.1f} ms")
+
+
+def main():
+    tmp = Path(tempfile.mkdtemp(prefix="striae-bench-"))
+    try:
+        bench_throughput(tmp)
+        bench_parallel(tmp)
+        big = bench_memory(tmp)
+        bench_window(big)
+    finally:
+        shutil.rmtree(tmp, ignore_errors=True)
+
+
+if __name__ == "__main__":
+    main()
