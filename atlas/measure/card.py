@@ -45,7 +45,12 @@ def star_measurements(ds, *, site=None, radec=None, time=None) -> tuple[dict, li
     - ``resolving_power``: the file's value, else the highest R its sampling supports
       (two pixels per resolution element, common practice).
     - ``colour_srgb``: ``#rrggbb`` true colour (CIE 1931 2° observer, sRGB; colour-science).
-    - ``rv_kms``, ``rv_err_kms``, ``teff_k``, ``spectral_class``: None for now.
+    - ``rv_kms`` (barycentric), ``rv_err_kms``: line-mask cross-correlation,
+      :func:`atlas.measure.rv.rv_of_spectrum` (Bouchy, Pepe & Queloz 2001 errors).
+    - ``spectral_class``: chi-square against the class templates,
+      :func:`atlas.measure.classify.classify`.
+    - ``teff_k``: Planck colour temperature when the flux unit is calibrated, else the
+      temperature of the class (Pecaut & Mamajek 2013), said so in ``notes``.
     """
     from atlas.measure.sampling import implied_resolving_power, median_sampling_kms
     from atlas.measure.snr import der_snr
@@ -67,6 +72,40 @@ def star_measurements(ds, *, site=None, radec=None, time=None) -> tuple[dict, li
         )
 
     values["snr"] = _num(der_snr(flux, mask))
+
+    # radial velocity (atlas.measure.rv), class and temperature (atlas.measure.classify)
+    from atlas.measure.classify import classify, colour_temperature, is_calibrated
+    from atlas.measure.rv import rv_of_spectrum
+
+    unc = np.asarray(ds["uncertainty"].values) if "uncertainty" in ds else None
+    rv_obs, fwhm = 0.0, None
+    try:
+        rvr = rv_of_spectrum(ds, site=site, radec=radec, time=time)
+    except (ValueError, RuntimeError, np.linalg.LinAlgError) as exc:
+        notes.append(f"no radial velocity: {exc}")
+    else:
+        if rvr.rv_obs_kms is None:
+            notes.append(f"no radial velocity: {rvr.note}")
+        else:
+            rv_obs, fwhm = rvr.rv_obs_kms, rvr.line_fwhm_kms
+            values["rv_err_kms"] = _num(rvr.rv_err_kms)
+            # barycentric when the correction is known; else left null (see notes)
+            values["rv_kms"] = _num(rvr.rv_kms)
+            if rvr.rv_kms is None:
+                notes.append(f"radial velocity {rvr.rv_obs_kms:+.3f} km/s in the observer's frame only")
+    try:
+        cres = classify(wave, flux, unc, mask, rv_obs_kms=rv_obs, line_fwhm_kms=fwhm,
+                        resolving_power=ds.attrs.get("resolving_power"), medium="vacuum")
+        values["spectral_class"] = cres.spectral_class
+        if cres.note:
+            notes.append(cres.note)
+        if is_calibrated(ds):
+            values["teff_k"] = _num(colour_temperature(wave, flux, unc, mask)[0])
+        elif cres.class_teff_k is not None:
+            values["teff_k"] = _num(round(cres.class_teff_k, -1))
+            notes.append("flux not calibrated: teff_k is the class's temperature")
+    except (ValueError, RuntimeError, np.linalg.LinAlgError) as exc:
+        notes.append(f"no class or temperature: {exc}")
 
     r = _num(ds.attrs.get("resolving_power"))
     if r is None:

@@ -132,7 +132,8 @@ def _templates(lo_A: float, hi_A: float, n: int, resolving_power: float, medium:
 
 def classify(wave_A, flux, uncertainty=None, mask=None, *, rv_obs_kms: float = 0.0,
              line_fwhm_kms: float | None = None, resolving_power: float | None = None,
-             medium: str = "vacuum", max_samples: int = 40_000, template_samples: int = 30_000,
+             medium: str = "vacuum", max_samples: int = 40_000, template_samples: int = 24_000,
+             class_resolving_power: float = 5000.0,
              lo_A: float = 3800.0, hi_A: float = 9000.0) -> ClassResult:
     """Spectral class (e.g. ``G2``) of a 1-D spectrum by chi-square against the templates.
 
@@ -151,7 +152,7 @@ def classify(wave_A, flux, uncertainty=None, mask=None, *, rv_obs_kms: float = 0
         ok &= ~np.asarray(mask, dtype=bool).ravel()
     beta = rv_obs_kms / C_KMS
     rest = w / math.sqrt((1 + beta) / (1 - beta))
-    ok &= (rest > lo_A) & (rest < hi_A)
+    ok &= (rest > max(lo_A, 3750.0)) & (rest < min(hi_A, 9050.0))
     if ok.sum() < 200:
         return ClassResult(None, None, None, None, None,
                            note=f"too little spectrum between {lo_A:g} and {hi_A:g} Å to classify")
@@ -166,18 +167,34 @@ def classify(wave_A, flux, uncertainty=None, mask=None, *, rv_obs_kms: float = 0
         sn = s / cont
     good = np.isfinite(fn) & np.isfinite(sn) & (sn > 0)
     rw, fn, sn = rw[good], fn[good], sn[good]
-    if rw.size > max_samples:
-        stride = int(math.ceil(rw.size / max_samples))
-        rw, fn, sn = rw[::stride], fn[::stride], sn[::stride]
     if line_fwhm_kms and line_fwhm_kms > 0:
         r_eff = C_KMS / line_fwhm_kms
     elif resolving_power:
         r_eff = float(resolving_power)
     else:
-        r_eff = 20000.0
-    r_eff = float(np.clip(round(r_eff, -2), 1000.0, 200000.0))
-    lo, hi = float(np.floor(rw[0])) - 1.0, float(np.ceil(rw[-1])) + 1.0
-    grid, names, teffs, tflux = _templates(lo, hi, template_samples, r_eff,
+        r_eff = class_resolving_power
+    # compare at the class resolving power (MK classes are defined at low resolution):
+    # the star is smoothed down to it when sharper, onto a uniform ln(wavelength) grid
+    r_cmp = min(class_resolving_power, r_eff)
+    r_cmp = float(10 ** (round(math.log10(r_cmp) * 20) / 20))  # shared cached templates
+    n_grid = int(min(max(4 * r_cmp * math.log(rw[-1] / rw[0]), 500), max_samples))
+    ug = np.exp(np.linspace(math.log(rw[0]), math.log(rw[-1]), n_grid))
+    pix_kms = math.log(rw[-1] / rw[0]) / (n_grid - 1) * C_KMS
+    fu = np.interp(ug, rw, fn)
+    su = np.interp(ug, rw, sn)
+    extra = (C_KMS / r_cmp) ** 2 - (C_KMS / r_eff) ** 2
+    if extra > 0:
+        sig_pix = math.sqrt(extra) / 2.3548200450309493 / pix_kms
+        if sig_pix > 0.3:
+            from scipy.ndimage import gaussian_filter1d
+
+            fu = gaussian_filter1d(fu, sig_pix, mode="nearest")
+            half = int(4 * sig_pix) + 1
+            k = np.exp(-0.5 * (np.arange(-half, half + 1) / sig_pix) ** 2)
+            k /= k.sum()
+            su = su * math.sqrt(float((k**2).sum()))
+    rw, fn, sn = ug, fu, su
+    grid, names, teffs, tflux = _templates(3700.0, 9100.0, template_samples, r_cmp,
                                            "vacuum" if medium == "vacuum" else "air")
     t_on = np.array([np.interp(rw, grid, t) for t in tflux])
     iv = 1.0 / sn**2
