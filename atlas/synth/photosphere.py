@@ -30,7 +30,7 @@ from atlas.synth.atoms import _K_B_CGS, abundance
 #: Teff (K) and log10 Pe, log10 Pg (dyn cm^-2) of a log g = 4.5 photosphere (from memory).
 _TEFF = np.array([2500, 3000, 3500, 4000, 4500, 5000, 5800, 6500, 7500, 8500, 10000, 15000, 20000, 30000, 40000, 50000.0])
 _LOG_PE = np.array([-0.3, 0.0, 0.3, 0.55, 0.8, 1.05, 1.4, 1.7, 2.1, 2.4, 2.6, 2.9, 3.0, 3.1, 3.2, 3.25])
-_LOG_PG = np.array([5.7, 5.6, 5.5, 5.3, 5.15, 5.0, 4.8, 4.6, 4.35, 4.15, 3.9, 3.7, 3.7, 3.8, 3.9, 4.0])
+_LOG_PG = np.array([5.35, 5.3, 5.2, 5.1, 5.0, 4.9, 4.8, 4.6, 4.35, 4.15, 3.9, 3.7, 3.7, 3.8, 3.9, 4.0])
 
 #: Optical depth of the representative layer (common practice for a one-layer model).
 TAU_LAYER = 0.2
