@@ -258,3 +258,22 @@ def test_image_without_wcs_takes_a_wavelength_image_beside_it(write_image):
     ds = atlas.io.read(path)
     np.testing.assert_allclose(ds["wavelength"].values, wave_nm * 10.0)  # 1 nm = 10 Å (SI)
     assert ds["wavelength"].attrs["medium"] == "air" and ds.sizes["sample"] == N
+
+
+@pytest.mark.parametrize(
+    ("cards", "expected_utc"),
+    [
+        # date-only DATE-OBS with TIME-OBS, no exposure: the start as given
+        ({"DATE_OBS": "2024-06-01", "TIME-OBS": "03:20:00"}, "2024-06-01T03:20:00"),
+        # MJD-OBS 60462.0 is 2024-06-01T00:00 UTC (astropy Time), plus half of EXPOSURE
+        ({"MJD_OBS": 60462.0, "EXPOSURE": 120.0}, "2024-06-01T00:01:00"),
+        # MJD-AVG used directly
+        ({"MJD_AVG": 60462.5, "EXPTIME": 3000.0}, "2024-06-01T12:00:00"),
+        # TIMESYS TAI: TAI - UTC = 37 s in 2024 (IERS Bulletin C, via astropy's leap-second table)
+        ({"DATE_AVG": "2024-06-01T00:00:37", "TIMESYS": "TAI"}, "2024-06-01T00:00:00"),
+    ],
+)
+def test_observation_time_keywords(write_image, cards, expected_utc):
+    path, _ = write_image(_flux(), **cards, **WCS_LINEAR)
+    t = atlas.io.read(path).attrs["obs_time_utc"]
+    assert abs((Time(t, scale="utc") - Time(expected_utc, scale="utc")).sec) < 1e-3
