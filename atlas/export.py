@@ -298,12 +298,13 @@ class FrameMap:
 def frame_for(view: ExportView, record: Mapping) -> FrameMap:
     """The FrameMap of a view for a star record; InputError when the frame is unavailable."""
     rv, bary = _finite_or_none(record.get("rv_kms")), _finite_or_none(record.get("barycentric_kms"))
-    if view.frame in ("barycentric", "rest") and bary is None:
+    if view.frame == "barycentric" and bary is None:
         raise InputError("frame", f"star {view.star!r} has no barycentric correction (its file "
                          "lacks time, site or coordinates); use frame observed")
     if view.frame == "rest" and rv is None:
         raise InputError("frame", f"star {view.star!r} has no measured radial velocity, so "
-                         "there is no rest frame; use frame observed or barycentric")
+                         "there is no rest frame; use frame observed"
+                         + (" or barycentric" if bary is not None else ""))
     return FrameMap(view.frame, view.medium, view.unit, rv, bary)
 
 
@@ -327,6 +328,13 @@ class _Star:
     ds: object  # xarray.Dataset (opened lazily by atlas.store)
     strip_min_A: np.ndarray
     strip_max_A: np.ndarray
+    own: tuple[np.ndarray, np.ndarray] | None = None
+
+    def own_intervals(self) -> tuple[np.ndarray, np.ndarray]:
+        """Each stored strip's own part (overlaps split at their middle), computed once."""
+        if self.own is None:
+            self.own = _own_intervals(self.strip_min_A, self.strip_max_A)
+        return self.own
 
 
 def _open_star(atlas_path, star_id: str) -> _Star:
@@ -375,10 +383,11 @@ class Piece:
 def _own_intervals(smin: np.ndarray, smax: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Split the overlaps of neighbouring strips at their middle: each strip's own part."""
     lo, hi = smin.copy(), smax.copy()
-    for i in range(1, smin.size):
-        if smin[i] < smax[i - 1]:
-            mid = 0.5 * (smin[i] + smax[i - 1])
-            hi[i - 1], lo[i] = mid, mid
+    if smin.size > 1:
+        overlap = smin[1:] < smax[:-1]
+        mid = 0.5 * (smin[1:] + smax[:-1])
+        hi[:-1] = np.where(overlap, mid, hi[:-1])
+        lo[1:] = np.where(overlap, mid, lo[1:])
     return lo, hi
 
 
@@ -427,7 +436,7 @@ def plan_pieces(view: ExportView, fmap: FrameMap, smin: np.ndarray, smax: np.nda
             edges.append((a, min(b, hi_A), (a, b)))
             a = b
     for a, b, xlim in edges:
-        src = tuple(int(i) for i in idx if own_hi[i] > a and own_lo[i] < b)
+        src = tuple(int(i) for i in idx[(own_hi[idx] > a) & (own_lo[idx] < b)])
         if not src:  # a gap between strips: nothing recorded here
             continue
         pieces.append(Piece(a, b, xlim, src, src[0]))
@@ -437,7 +446,7 @@ def plan_pieces(view: ExportView, fmap: FrameMap, smin: np.ndarray, smax: np.nda
 def strip_data(star: _Star, piece: Piece, fmap: FrameMap, flux: str, max_points: int,
                number: int) -> StripData:
     """Fetch one drawn strip (decimated to ``max_points`` bins) in display units."""
-    own_lo, own_hi = _own_intervals(star.strip_min_A, star.strip_max_A)
+    own_lo, own_hi = star.own_intervals()
     if len(piece.sources) == 1:
         parts = [(piece.sources[0], piece.lo_A, piece.hi_A)]
     else:
@@ -678,8 +687,8 @@ def export_pdf(atlas_path, star_id: str | None = None, out=None, *, view: Mappin
                   paper=paper, markers=markers)
     limit = pdfmod.max_per_page(v.paper)
     if v.per_page > limit:
-        raise InputError("per_page", f"at most {limit} strips fit on a {v.paper.upper()} page, "
-                         f"not {v.per_page}")
+        raise InputError("per_page", f"at most {limit} strips fit on one {v.paper.upper()} "
+                         f"page, not {v.per_page}")
     path = check_out(out, ".pdf")
     prep = prepare(atlas_path, v, lines_path=lines_path)
     n_pages = math.ceil(len(prep.pieces) / v.per_page)

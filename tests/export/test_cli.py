@@ -52,7 +52,6 @@ def test_html_with_lines_filter(small_atlas, tmp_path, capsys):
         (["--per-page", "abc"], ("--per-page", "whole number")),
         (["--per-page", "40"], ("--per-page", "at most")),
         (["--frame", "galactic"], ("--frame",)),
-        (["--frame", "rest"], ("--frame", "radial velocity")),
         (["--unit", "um"], ("--unit",)),
         (["--mark", "6500"], ("--mark",)),
         (["--mark", "6600:6500:x"], ("--mark", "low to high")),
@@ -69,6 +68,9 @@ def test_bad_options_are_one_line(small_atlas, tmp_path, capsys, args, fragments
 
 def test_star_and_output_mistakes(small_atlas, tmp_path, capsys):
     a = str(small_atlas)
+    code = cli.main(["export", a, "test-star-nosite", "--frame", "barycentric", "--pdf",
+                     str(tmp_path / "o.pdf")])
+    _one_line_error(capsys, code, "--frame", "no barycentric correction")
     code = cli.main(["export", a, "nobody", "--pdf", str(tmp_path / "o.pdf")])
     _one_line_error(capsys, code, "STAR", "no star 'nobody'")
     code = cli.main(["export", a, "../etc", "--pdf", str(tmp_path / "o.pdf")])

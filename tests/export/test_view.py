@@ -140,7 +140,21 @@ def test_frames_need_their_measurements():
     assert exc.value.where == "frame"
     with pytest.raises(InputError, match="radial velocity"):
         frame_for(make_view(star="a", frame="rest"), {"barycentric_kms": 1.0, "rv_kms": None})
+    # Without a correction, rest takes the RV as measured by the observer (as the viewer does):
+    # rest = observed / D(rv), D from astropy's doppler_relativistic.
+    fm = frame_for(make_view(star="a", frame="rest", medium="vacuum"),
+                   {"barycentric_kms": None, "rv_kms": 3.0})
+    np.testing.assert_allclose(fm.to_display_A(WAVES), WAVES * WAVES / _shift(WAVES, 3.0),
+                               rtol=1e-12)
     with pytest.raises(InputError, match="radial velocity"):  # NaN counts as not measured
         frame_for(make_view(star="a", frame="rest"), {"barycentric_kms": 1.0, "rv_kms": float("nan")})
     fm = frame_for(make_view(star="a", frame="rest"), {"barycentric_kms": 1.0, "rv_kms": 2.0})
     assert (fm.rv_kms, fm.bary_kms) == (2.0, 1.0)
+
+
+def test_overlapping_strips_share_their_overlap_at_its_middle():
+    from atlas.export import _own_intervals
+
+    lo, hi = _own_intervals(np.array([10.0, 19.0, 30.0]), np.array([20.0, 29.0, 40.0]))
+    np.testing.assert_allclose(lo, [10.0, 19.5, 30.0])  # 19..20 split at 19.5; 29/30 a gap
+    np.testing.assert_allclose(hi, [19.5, 29.0, 40.0])
