@@ -2,7 +2,7 @@
 
 Everything here is invented for the demo: the observatory, its site, the observers,
 the spectrograph, the stars, their names, coordinates, velocities and the dates.  The
-spectra come from ``atlas.synth.model`` with photon noise from a fixed seed, so
+spectra come from ``atlas.synth.model`` with photon noise from a generator started at a fixed number, so
 ``write_demo`` makes the same bytes every time on the same software.
 
 Barycentric corrections: astropy ``SkyCoord.radial_velocity_correction`` at
@@ -25,7 +25,7 @@ from atlas.synth import broaden, noise
 from atlas.synth.continuum import planck_b_lambda
 from atlas.synth.model import Star, default_lines, synthesize
 
-SEED = 41_977
+NOISE_START = 41_977  # the random generator's starting number (fixed)
 SNR_REF_A = 5500.0  # S/N is quoted per pixel in the continuum here (Å, observed)
 
 OBSERVATORY = {
@@ -160,10 +160,10 @@ class Generated:
 
 
 def generate(obs: Observation, index: int, lines=None) -> Generated:
-    """Make one exposure of the scenario (deterministic: seed ``SEED + index``)."""
+    """Make one exposure of the scenario (deterministic: generator started at ``NOISE_START + index``)."""
     if lines is None:
         lines = default_lines()
-    rng = np.random.default_rng(SEED + index)
+    rng = np.random.default_rng(NOISE_START + index)
     vb = barycentric_kms(obs)
     star = Star(teff_k=obs.teff_k, logg=obs.logg, vsini_kms=obs.vsini_kms, rv_kms=obs.rv_kms)
     if obs.form == "echelle":
@@ -325,8 +325,8 @@ def readme_text(generated: list[Generated]) -> str:
         "Voigt profiles, schematic molecular bands, rotation, instrument, photon noise), and any",
         "resemblance of a name or position to a real star or place is chance.",
         "",
-        "Regenerate them bit for bit with `striae demo --out demo_spectra` (fixed seed",
-        f"{SEED}); `striae demo --plot demo_spectra/classes.png` also draws `classes.png`.",
+        "Regenerate them bit for bit with `striae demo --out demo_spectra` (random generator",
+        f"started at {NOISE_START}); `striae demo --plot demo_spectra/classes.png` also draws `classes.png`.",
         "",
         "Wavelengths are as observed at the telescope (topocentric): the star's radial velocity and",
         "the barycentric correction are both in them.  The barycentric correction below is astropy's",

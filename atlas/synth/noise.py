@@ -3,7 +3,7 @@
 Counts are scaled so that a reference level (the continuum at a chosen wavelength)
 holds snr^2 photo-electrons per pixel; each pixel then gets Gaussian noise of
 standard deviation sqrt(counts), the large-count limit of Poisson statistics
-(common practice), from a seeded ``numpy.random.Generator``.
+(common practice), from a ``numpy.random.Generator`` started at a fixed number.
 """
 
 from __future__ import annotations

@@ -5,7 +5,7 @@ in their source text); any other ``telluric`` row is one line.  A band is filled
 with a schematic forest of lines, never shifted by the star's velocity: O2 bands as
 a regular series of doublets whose spacing grows away from the head (the P branch
 of a band, Herzberg 1950), H2O bands as an irregular forest (about one line per Å,
-positions and strengths from a generator seeded by the band's start wavelength, so
+positions and strengths from a generator started at the band's start wavelength, so
 every run is the same).  A line's zenith optical depth at centre comes from the row's
 coarse ``strength`` class (1 -> 1.5, 2 -> 0.5, 3 -> 0.15,
 4 -> 0.04: our own rough scale, not a measurement), scaled by the airmass (and, for

@@ -25,7 +25,7 @@ def test_realised_snr_matches_request(snr):
     assert np.median(counts / sigma) == pytest.approx(snr, rel=1e-9)
 
 
-def test_same_seed_same_noise():
+def test_same_generator_start_same_noise():
     a = noise.add_photon_noise(np.full(100, 1e4), np.random.default_rng(3))[0]
     b = noise.add_photon_noise(np.full(100, 1e4), np.random.default_rng(3))[0]
     c = noise.add_photon_noise(np.full(100, 1e4), np.random.default_rng(4))[0]
