@@ -70,3 +70,21 @@ def test_tio_bands_grow_toward_m(lines):
     d = [depth(t) for t in (5270, 4440, 3850, 3430, 3060)]
     assert d[0] < 0.01 and d[-1] > 0.3, d
     assert all(b > a for a, b in zip(d, d[1:], strict=False)), d
+
+
+def test_ionized_lines_strengthen_in_giants(lines):
+    # Common practice (MK luminosity criteria, Gray & Corbally 2009; Gray 2005, ch. 13): at a
+    # given Teff, lower gravity means lower electron pressure, so lines of ions (Sr II 4077,
+    # Fe II) grow relative to the dwarf while neutral Fe I lines do not.
+    dwarf = {"Sr II": ew_of(lines, "Sr II", 4078.9, 3.0, 5000), "Fe I": ew_of(lines, "Fe I", 5271.0, 2.0, 5000)}
+    sr_giant = float(np.trapezoid(*_giant(lines, "Sr II", 4078.9, 3.0)))
+    fe_giant = float(np.trapezoid(*_giant(lines, "Fe I", 5271.0, 2.0)))
+    assert sr_giant > 1.2 * dwarf["Sr II"], (sr_giant, dwarf)
+    assert fe_giant < dwarf["Fe I"], (fe_giant, dwarf)
+
+
+def _giant(lines, species, center, half):
+    sel = lines[(lines["species"] == species) & (abs(lines["vacuum_A"] - center) < half)]
+    wave = broaden.log_grid(center - half, center + half, 0.5)
+    eta = model.opacity_ratio(wave, Star(5000, logg=2.0), sel)
+    return 1.0 - model.depth_from_ratio(eta, model.max_depth(wave, 5000)), wave
