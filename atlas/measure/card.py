@@ -88,10 +88,11 @@ def star_measurements(ds, *, site=None, radec=None, time=None) -> tuple[dict, li
             notes.append(f"no radial velocity: {rvr.note}")
         else:
             rv_obs, fwhm = rvr.rv_obs_kms, rvr.line_fwhm_kms
-            values["rv_err_kms"] = _num(rvr.rv_err_kms)
-            # barycentric when the correction is known; else left null (see notes)
+            # barycentric when the correction is known; else both left null (see notes)
             values["rv_kms"] = _num(rvr.rv_kms)
-            if rvr.rv_kms is None:
+            if rvr.rv_kms is not None:
+                values["rv_err_kms"] = _num(rvr.rv_err_kms)
+            else:
                 notes.append(f"radial velocity {rvr.rv_obs_kms:+.3f} km/s in the observer's frame only")
     try:
         cres = classify(wave, flux, unc, mask, rv_obs_kms=rv_obs, line_fwhm_kms=fwhm,
