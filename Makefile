@@ -10,12 +10,14 @@ STAMP  := $(VENV)/.installed
 PORT   ?= 5006
 ADDRESS ?= 127.0.0.1
 
-.PHONY: demo test bench install chromium lint demo-atlas demo-data clean
+.PHONY: demo test bench install chromium lint demo-atlas demo-data constraints clean
 
-$(STAMP): pyproject.toml
+# constraints.txt pins every dependency to the versions the tests (and the
+# byte-identical demo files) were made with; refresh it with `make constraints`.
+$(STAMP): pyproject.toml constraints.txt
 	$(PYTHON) -m venv $(VENV)
 	$(BIN)/pip install --quiet --disable-pip-version-check --upgrade pip
-	$(BIN)/pip install --quiet --disable-pip-version-check -e '.[test]'
+	$(BIN)/pip install --quiet --disable-pip-version-check -c constraints.txt -e '.[test]'
 	touch $(STAMP)
 
 install: $(STAMP)
@@ -41,6 +43,13 @@ demo: demo-atlas
 
 bench: install
 	$(BIN)/python tests/bench/run.py
+
+# Regenerate the invented demo spectra and their overview picture (fixed seed, byte for byte).
+demo-data: install
+	$(BIN)/striae demo --out demo_spectra --plot demo_spectra/classes.png
+
+constraints:
+	$(BIN)/pip freeze --exclude-editable | grep -v -E '^(-e|striae)' > constraints.txt
 
 lint: install
 	$(BIN)/ruff check atlas tests
