@@ -15,7 +15,7 @@ GRID = np.linspace(3000.0, 25000.0, 2001)
 
 
 def test_vacuum_to_air_matches_airvacuumvald_morton_formula():
-    # Reference: PyPI airvacuumvald.vacuum_to_air (Morton 2000 formula as used by VALD).
+    # Reference: PyPI airvacuumvald.vacuum_to_air (the Morton 2000 formula).
     np.testing.assert_allclose(
         airvac.vacuum_to_air_A(GRID), airvacuumvald.vacuum_to_air(GRID), atol=1e-3, rtol=0
     )
