@@ -87,3 +87,23 @@ def test_unknown_star_in_atlas_is_one_line_error(tmp_path, capsys):
 
 def test_bad_site_is_one_line_error(star_csv, capsys):
     assert "--site" in _error_line(capsys, ["measure", str(star_csv), "--site", "1,2"])
+
+
+@pytest.mark.slow
+def test_measure_a_star_of_a_built_atlas(star_csv, tmp_path, capsys):
+    # The atlas path reads the stored strips (overlaps removed) and gives the same
+    # velocity as the file, within the errors (injected -55 km/s).
+    import io
+
+    from atlas.build import build_atlas
+
+    rep = build_atlas([str(star_csv)], str(tmp_path / "atlas"), progress=False,
+                      out=io.StringIO(), err=io.StringIO())
+    assert rep.committed
+    cat = json.loads((tmp_path / "atlas" / "atlas.json").read_text())
+    star = cat["stars"][0]["id"]
+    assert cli.main(["measure", "--json", str(tmp_path / "atlas"), star]) == 0
+    out = json.loads(capsys.readouterr().out)
+    assert out["medium"] == "vacuum"
+    assert abs(out["rv_obs_kms"] + 55.0) < 3 * out["rv_err_kms"]
+    assert out["spectral_class"] is not None
