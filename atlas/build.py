@@ -39,7 +39,7 @@ from atlas.strips import (
 )
 
 #: Bytes aimed at per chunk of a float32 (strip, pixel) variable.
-CHUNK_BYTES = 256 * 1024
+CHUNK_BYTES = 512 * 1024
 
 
 @dataclass(frozen=True)

@@ -37,7 +37,11 @@ def _reduce(arr: np.ndarray, factor: int, how) -> np.ndarray:
     pad = m * factor - n
     if pad:
         arr = np.concatenate([arr, np.full(arr.shape[:-1] + (pad,), np.nan, dtype=arr.dtype)], axis=-1)
-    return how.reduce(arr.reshape(arr.shape[:-1] + (m, factor)), axis=-1)
+    # Element-wise over strided slices: much faster than a reduction along a short axis.
+    out = how(arr[..., 0::factor], arr[..., 1::factor])
+    for i in range(2, factor):
+        how(out, arr[..., i::factor], out=out)
+    return out
 
 
 def _next_level(level: dict) -> dict:
@@ -53,7 +57,7 @@ def _next_level(level: dict) -> dict:
 def build_levels(wavelength, flux, norm_flux, mask, max_bins: int = MAX_BINS) -> list[dict]:
     """Envelope levels for (strip, pixel) arrays; a list of dicts of (strip, bin) arrays.
 
-    Each dict holds ``step`` (samples per bin) and ``wave_min``, ``wave_max`` (float64,
+    Each dict holds ``step`` (samples per bin) and ``wave_min``, ``wave_max`` (float32,
     Å), ``flux_min``, ``flux_max``, ``norm_min``, ``norm_max`` (float32).  Masked samples
     (``mask`` True) are left out of the flux envelopes; padding (NaN wavelength) is ignored.
     At least one level is made.
@@ -63,8 +67,9 @@ def build_levels(wavelength, flux, norm_flux, mask, max_bins: int = MAX_BINS) ->
     f = np.where(m, np.float32(np.nan), np.asarray(flux, dtype=np.float32))
     level = {
         "step": FACTOR,
-        "wave_min": _reduce(wave, FACTOR, np.fmin),
-        "wave_max": _reduce(wave, FACTOR, np.fmax),
+        # float32 is what the window query returns anyway (0.001 Å at 10,000 Å).
+        "wave_min": _reduce(wave, FACTOR, np.fmin).astype(np.float32),
+        "wave_max": _reduce(wave, FACTOR, np.fmax).astype(np.float32),
         "flux_min": _reduce(f, FACTOR, np.fmin),
         "flux_max": _reduce(f, FACTOR, np.fmax),
     }

@@ -125,12 +125,15 @@ def write_star(atlas_url: str, name: str, root: xr.Dataset, levels: list[xr.Data
     if fs.exists(path):
         fs.rm(path, recursive=True)
     pixel = root.sizes["pixel"]
-    enc = {v: {"chunks": (strips_per_chunk, pixel)} for v in root.data_vars if root[v].dims == ("strip", "pixel")}
-    enc["wavelength"] = {"chunks": (strips_per_chunk, pixel)}
+    comp = _compressors()
+    enc = {v: {"chunks": (strips_per_chunk, pixel), "compressors": comp}
+           for v in root.data_vars if root[v].dims == ("strip", "pixel")}
+    enc["wavelength"] = {"chunks": (strips_per_chunk, pixel), "compressors": comp}
     root.to_zarr(url, mode="w", zarr_format=3, consolidated=False, encoding=enc)
     for j, lev in enumerate(levels, start=1):
         nb = lev.sizes["bin"]
-        lenc = {v: {"chunks": (min(lev.sizes["strip"], strips_per_chunk * 4), nb)} for v in lev.data_vars}
+        lenc = {v: {"chunks": (min(lev.sizes["strip"], strips_per_chunk * 4), nb), "compressors": comp}
+                for v in lev.data_vars}
         lev.to_zarr(url, group=f"lod{j}", mode="w", zarr_format=3, consolidated=False, encoding=lenc)
     import zarr
 
@@ -138,6 +141,14 @@ def write_star(atlas_url: str, name: str, root: xr.Dataset, levels: list[xr.Data
         # Consolidated metadata is a zarr-python extension to Zarr v3; we rely on it on purpose.
         warnings.filterwarnings("ignore", message="Consolidated metadata", category=UserWarning)
         zarr.consolidate_metadata(url, zarr_format=3)
+
+
+def _compressors():
+    """Blosc LZ4 with byte shuffle: several times faster than zstd to write and to read
+    here, and smaller on float arrays (measured on this project's strips)."""
+    from zarr.codecs import BloscCodec
+
+    return [BloscCodec(cname="lz4", clevel=5, shuffle="shuffle")]
 
 
 def read_catalog(atlas_url: str) -> dict | None:
