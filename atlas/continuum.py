@@ -80,12 +80,11 @@ def _pspline(x, y, t, lam_rel):
     """
     B = BSpline.design_matrix(x, t, 3).tocsc()
     K = B.shape[1]
-    A = (B.T @ B).todia()
+    A = (B.T @ B).tocsr()
     rhs = B.T @ y
     bands = np.zeros((4, K))  # upper banded form for solveh_banded
-    for off, row in zip(A.offsets, A.data, strict=True):
-        if 0 <= off <= 3:
-            bands[3 - off, off:] = row[off:]
+    for off in range(min(4, K)):
+        bands[3 - off, off:] = A.diagonal(off)
     scale = max(bands[3].mean(), 1e-300)
     # lam * D'D for the second-difference matrix D: bands (1, -4, 6, -4, 1) with edge corrections.
     d = np.diff(np.eye(K), 2, axis=0) if K <= 8 else None
