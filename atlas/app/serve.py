@@ -34,13 +34,17 @@ def create_session(atlas_path, query: str | None = None):
         return pn.pane.Alert("This atlas holds no stars yet.", alert_type="warning")
     viewer = Viewer(data, state, notices)
     if loc is not None and pn.state.curdoc is not None and pn.state.curdoc.session_context is not None:
-        # Replace the incoming query by its validated form before syncing, so that
-        # the sync never applies a value we refused; then mirror the state both ways.
-        canon = "?" + urlencode(to_query(state))
-        if canon != (loc.search or ""):
-            loc.search = canon
+        # Mirror the state to the URL.  Values arriving through the sync are checked again
+        # by the viewer's watcher with the same rules as above.
         loc.sync(state, list(URL_PARAMS), on_error=viewer.on_url_error)
         pn.state.curdoc.js_on_event("document_ready", CustomJS(args={"bridge": viewer.bridge}, code=KEYS_JS))
+
+        def canonical():  # once loaded, show the validated values in the address bar
+            canon = "?" + urlencode(to_query(state))
+            if canon != loc.search:
+                loc.search = canon
+
+        pn.state.onload(canonical)
     pn.state.curdoc.title = f"{TITLE}: {state.star}" if pn.state.curdoc is not None else TITLE
     return viewer.layout
 

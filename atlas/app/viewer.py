@@ -23,13 +23,14 @@ from bokeh.models import (
     HoverTool,
     LabelSet,
     Range1d,
+    WheelZoomTool,
 )
 from bokeh.plotting import figure
 
 from atlas.app import markers
 from atlas.app.data import AtlasData, line_list
 from atlas.app.frames import Frame, scale
-from atlas.app.state import PER_PAGE_MAX, URL_PARAMS, ViewState, parse_query
+from atlas.app.state import DEFAULTS, PER_PAGE_MAX, URL_PARAMS, ViewState, parse_query
 
 C_KMS = 299_792.458  # CODATA exact speed of light
 DEFAULT_PX = 1100  # plot width assumed before the browser reports it
@@ -183,20 +184,25 @@ class Slot:
         self.index = index
         self.strip: int | None = None
         self.drawn = None
-        self.src = ColumnDataSource({"x": np.zeros(0, np.float32), "y": np.zeros(0, np.float32)})
-        self.msrc = ColumnDataSource(markers._empty() | {"colour": []})
+        self.src = ColumnDataSource({"x": np.zeros(0, np.float32), "y": np.zeros(0, np.float32)},
+                                    name=f"spectrum-{index}")
+        self.msrc = ColumnDataSource(markers._empty() | {"colour": []}, name=f"markers-{index}")
         self.fsrc = ColumnDataSource({"x": [], "y": [], "species": [], "rest": [], "ew": [], "colour": []})
         self.ksrc = ColumnDataSource({"x0": [], "x1": [], "note": []})
         self.conv = ColumnDataSource({"d": [0.0, 1.0], "vac": [0.0, 1.0], "air": [0.0, 1.0]})
         fig = figure(
             height=118, sizing_mode="stretch_width", output_backend="webgl",
             x_range=Range1d(0, 1), y_range=Range1d(0, 1.2),
-            tools="xpan,xwheel_zoom,xbox_zoom,reset", active_drag="xpan",
+            tools="xpan,xbox_zoom,reset", active_drag="xpan",
             toolbar_location="right", min_border_left=46, min_border_right=6,
             min_border_top=4, min_border_bottom=18, name=f"strip-{index}",
             background_fill_color=PAPER, border_fill_color="white",
         )
         fig.toolbar.logo = None
+        # Ctrl + wheel zooms; the plain wheel keeps scrolling the page of strips.
+        wheel = WheelZoomTool(dimensions="width", modifiers={"ctrl": True})
+        fig.add_tools(wheel)
+        fig.toolbar.active_scroll = wheel
         fig.grid.grid_line_color = RULE
         fig.xaxis.major_label_text_font_size = "10px"
         fig.yaxis.major_label_text_font_size = "9px"
@@ -248,9 +254,9 @@ class Viewer:
         self.bridge.on_change("tags", lambda attr, old, new: self.key(new[0] if new else ""))
         self._build_widgets()
         self._build_overview()
-        self.slots = [Slot(i, self) for i in range(PER_PAGE_MAX)]
-        self.strips = pn.Column(*[pn.pane.Bokeh(s.fig, sizing_mode="stretch_width", margin=(0, 0, 2, 0))
-                                  for s in self.slots], sizing_mode="stretch_width")
+        self.slots: list[Slot] = []
+        self.strips = pn.Column(sizing_mode="stretch_width")
+        self._ensure_slots(state.per_page)
         self.state.param.watch(self._on_state, list(URL_PARAMS))
         self.layout = self._build_layout()
         self.refresh()
@@ -351,12 +357,22 @@ class Viewer:
             label("Frame"), self.w_frame, label("Wavelengths in"), self.w_medium, self.w_unit,
             label("Flux"), self.w_flux, self.w_lines, self.w_strength, self.w_per_page, self.w_copy,
             pn.pane.HTML('<div style="font-size:11px;color:#5a6275">Keys: ↓/→ next strip, ↑/← previous,'
-                         ' PageDown/PageUp pages, Home/End. Drag to pan, box or wheel to zoom,'
-                         ' double-click reset tool for the whole strip.</div>', margin=(6, 10)),
+                         ' PageDown/PageUp pages, Home/End. Drag to pan, box tool or'
+                         ' Ctrl + wheel to zoom; the reset tool shows the whole strip again.</div>', margin=(6, 10)),
             width=290, styles={"background": "#f3efe4", "border-right": f"1px solid {RULE}"},
             scroll=True, sizing_mode="stretch_height",
         )
         return pn.Row(side, main, sizing_mode="stretch_both", styles={"background": "white"})
+
+    def _ensure_slots(self, n: int):
+        """Strip figures are made when first needed (never more than PER_PAGE_MAX)."""
+        new = []
+        while len(self.slots) < min(n, PER_PAGE_MAX):
+            slot = Slot(len(self.slots), self)
+            self.slots.append(slot)
+            new.append(pn.pane.Bokeh(slot.fig, sizing_mode="stretch_width", margin=(0, 0, 2, 0)))
+        if new:
+            self.strips.extend(new)
 
     # ----------------------------------------------------------------- derived
     def record(self) -> dict:
@@ -523,12 +539,36 @@ class Viewer:
             self.refresh_notice()
 
     # ----------------------------------------------------------------- drawing
+    def _validate(self, old: dict) -> bool:
+        """Check the whole state with the URL rules (values may come from the URL sync);
+        put back the previous value of anything refused, clamp the rest.  True if fixed."""
+        st = self.state
+        raw = {k: v for k, v in st.values().items() if v is not None}
+        values, notices = parse_query(raw, self.data.strips_of())
+        fix = {}
+        for k in URL_PARAMS:
+            if k in ("lo", "hi"):
+                v = values.get(k)
+            elif k in values:
+                v = values[k]
+            else:
+                v = old.get(k, DEFAULTS[k])
+            if getattr(st, k) != v:
+                fix[k] = v
+        if not fix:
+            return False
+        self.note(*notices)
+        st.param.update(**fix)
+        return True
+
     def _on_state(self, *events):
         if self._busy:
             return
         changed = {e.name for e in events}
         old = {e.name: e.old for e in events}
         st = self.state
+        if self._validate(old):
+            return  # the corrected update has redrawn the view
         # Keep the zoom window on the same stretch when the frame or medium changes.
         if changed & {"frame", "medium"} and st.lo is not None and st.hi is not None:
             rec = self.record()
@@ -648,6 +688,7 @@ class Viewer:
         sc = scale(st.unit)
         flux = "norm" if st.flux == "normalized" else "raw"
         strips = self.page_strips()
+        self._ensure_slots(len(strips))
         zs = self.zoom_strip()
         ref_A, ref_name = self._ref()
         self.meta.data = {"scale": [sc], "ref_A": [ref_A], "ref_name": [ref_name], "frame": [st.frame]}
