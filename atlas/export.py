@@ -576,8 +576,14 @@ def page_text(view: ExportView, star: _Star, fmap: FrameMap, lo_disp: float, hi_
 # ------------------------------------------------------------------ atomic write
 
 
-def check_out(out, suffix: str) -> Path:
-    """Validate an output file path before any work: parent folder exists, writable."""
+def check_out(out, suffix: str):
+    """Validate an output file path before any work: parent folder exists, writable.
+
+    A binary file object (anything with ``write``, e.g. ``io.BytesIO``) is accepted as
+    it is: the finished file's bytes are written to it in one call.
+    """
+    if hasattr(out, "write"):
+        return out
     if out is None or str(out).strip() == "":
         raise InputError("out", "no output file given")
     p = Path(out)
@@ -594,10 +600,17 @@ def check_out(out, suffix: str) -> Path:
 
 
 class _Atomic:
-    """A temporary file beside ``path``, moved into place only if the body succeeds."""
+    """A temporary file beside ``path``, moved into place only if the body succeeds.
 
-    def __init__(self, path: Path):
+    For a file object instead of a path, the temporary file lives in the system's
+    temporary folder and its bytes are written to the object on success.
+    """
+
+    def __init__(self, path):
         self.path = path
+        self.stream = None
+        if hasattr(path, "write"):
+            self.stream, self.path = path, Path(tempfile.gettempdir()) / "striae-export"
 
     def __enter__(self) -> str:
         try:
@@ -609,6 +622,13 @@ class _Atomic:
         return self.tmp
 
     def __exit__(self, exc_type, exc, tb):
+        if exc_type is None and self.stream is not None:
+            try:
+                with open(self.tmp, "rb") as fh:
+                    self.stream.write(fh.read())
+            finally:
+                _unlink(self.tmp)
+            return False
         if exc_type is None:
             try:
                 os.chmod(self.tmp, 0o644)
@@ -705,7 +725,7 @@ def export_pdf(atlas_path, star_id: str | None = None, out=None, *, view: Mappin
         written = pdfmod.write_pdf(tmp, pages(), lambda page: prep.text, prep.markers, prep.marks,
                                    paper=v.paper, per_page=v.per_page,
                                    normalized=v.flux == "normalized", metadata=meta)
-    return {"out": os.fspath(path), "pages": written, "strips": len(prep.pieces)}
+    return {"out": _name(path), "pages": written, "strips": len(prep.pieces)}
 
 
 def export_html(atlas_path, star_id: str | None = None, out=None, *, view: Mapping | None = None,
@@ -738,4 +758,8 @@ def export_html(atlas_path, star_id: str | None = None, out=None, *, view: Mappi
     with _Atomic(path) as tmp:
         with open(tmp, "w", encoding="utf-8") as fh:
             fh.write(html)
-    return {"out": os.fspath(path), "strips": len(strips)}
+    return {"out": _name(path), "strips": len(strips)}
+
+
+def _name(out) -> str | None:
+    return None if hasattr(out, "write") else os.fspath(out)

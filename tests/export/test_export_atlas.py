@@ -265,3 +265,13 @@ def test_failure_while_drawing_leaves_the_old_file_untouched(small_atlas, tmp_pa
         ex.export_pdf(small_atlas, ALPHA, out, per_page=2)
     assert out.read_bytes() == b"previous contents"
     assert _leftovers(tmp_path) == []
+
+
+def test_export_into_a_file_object(small_atlas):
+    import io
+
+    pdf, page = io.BytesIO(), io.BytesIO()
+    res = ex.export_pdf(small_atlas, ALPHA, pdf, lo=6555.0, hi=6575.0)
+    assert res["out"] is None and pdf.getvalue().startswith(b"%PDF")
+    ex.export_html(small_atlas, ALPHA, page, lo=6555.0, hi=6575.0)
+    assert page.getvalue().lstrip().lower().startswith(b"<!doctype html")
