@@ -71,6 +71,6 @@ def read(
         return reader.read(p, wave_unit=wave_unit, medium=medium)
     except InputError:
         raise
-    except (OSError, ValueError, TypeError, KeyError, IndexError, MemoryError) as exc:
+    except (OSError, ValueError, TypeError, KeyError, IndexError, AttributeError) as exc:
         # The reader's own checks should have caught this; never show a traceback.
         raise InputError(p, f"cannot read as {reader.NAME}: {validate.short_reason(exc)}") from None

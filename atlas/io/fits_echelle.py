@@ -35,6 +35,7 @@ def _is_order_image(extname, header, is_image) -> bool:
     )
 
 
+@validate.sniffer
 def can_read(path) -> bool:
     """True for a FITS file with a 2-D image and an HDU named WAVELENGTH (or WAVE, LAMBDA)."""
     if not validate.is_fits(path):

@@ -44,6 +44,7 @@ def _is_spectrum_image(extname: str, header, is_image: bool) -> bool:
     return False
 
 
+@validate.sniffer
 def can_read(path) -> bool:
     """True for a FITS file with an image HDU of shape (N,) or (1, N)."""
     if not validate.is_fits(path):

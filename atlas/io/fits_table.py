@@ -55,6 +55,7 @@ def _is_table(header) -> bool:
     return str(header.get("XTENSION", "")).strip().upper() in ("BINTABLE", "TABLE")
 
 
+@validate.sniffer
 def can_read(path) -> bool:
     """True for a FITS file holding a table extension."""
     if not validate.is_fits(path):
@@ -72,9 +73,15 @@ def _find(names_lower: dict, candidates) -> str | None:
 
 def read(path, *, wave_unit=None, medium=None, **_options):
     """Read the first table with a wavelength column into a Spectrum."""
+    from astropy.io import fits
+
     p = validate.check_file(path)
     with fitsutil.open_fits(p) as hdul:
-        tables = [(i, hdu) for i, hdu in enumerate(hdul) if _is_table(hdu.header)]
+        tables = [
+            (i, hdu)
+            for i, hdu in enumerate(hdul)
+            if isinstance(hdu, fits.BinTableHDU | fits.TableHDU) and _is_table(hdu.header)
+        ]
         if not tables:
             raise InputError(p, "not a spectrum file: no table extension")
         chosen = None

@@ -93,6 +93,16 @@ def open_fits(path):
             raise InputError(
                 p, f"corrupt FITS file: cannot read its headers ({short_reason(exc)})"
             ) from None
+        for i, hdu in enumerate(hdul):
+            for card in hdu.header.cards:
+                try:
+                    _ = card.value
+                except Exception:
+                    hdul.close()
+                    raise InputError(
+                        p,
+                        f"corrupt FITS header: unreadable card {card.keyword or '?'!r} in HDU {i}",
+                    ) from None
         try:
             for hdu in hdul:
                 _ = hdu.data

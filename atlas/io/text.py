@@ -84,6 +84,7 @@ def _first_header(text: str) -> str | None:
     return None
 
 
+@validate.sniffer
 def can_read(path) -> bool:
     """True for UTF-8 text whose header line names a wavelength column, or any .csv/.tsv text."""
     raw = validate.head_bytes(path, 65536)

@@ -8,6 +8,7 @@ medium override and sets ``source_path``, ``source_sha256`` and ``format``).
 
 from __future__ import annotations
 
+import functools
 import os
 import re
 
@@ -62,6 +63,19 @@ def check_file(path) -> str:
     if size == 0:
         raise InputError(p, "empty file (0 bytes)")
     return p
+
+
+def sniffer(can_read):
+    """Make a ``can_read`` function answer False instead of raising, whatever the file holds."""
+
+    @functools.wraps(can_read)
+    def safe(path) -> bool:
+        try:
+            return bool(can_read(path))
+        except Exception:
+            return False
+
+    return safe
 
 
 def head_bytes(path, n: int = 2880) -> bytes:
