@@ -377,7 +377,7 @@ class Piece:
     hi_A: float
     xlim_A: tuple[float, float]  # stored Å of the axis ends
     sources: tuple[int, ...]  # stored strip indices
-    label: int  # number shown beside the strip
+    label: int  # number shown beside the strip (stored strips count from 1, as in the viewer)
 
 
 def _own_intervals(smin: np.ndarray, smax: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -411,7 +411,7 @@ def plan_pieces(view: ExportView, fmap: FrameMap, smin: np.ndarray, smax: np.nda
                                  f"{view.per_page} strips, not {whole_page}")
             idx = idx[(whole_page - 1) * view.per_page: whole_page * view.per_page]
         return [Piece(float(smin[i]), float(smax[i]), (float(smin[i]), float(smax[i])),
-                      (int(i),), int(i)) for i in idx]
+                      (int(i),), int(i) + 1) for i in idx]
 
     lo_A, hi_A = (float(v) for v in fmap.from_display_A([view.lo, view.hi]))
     first, last = float(smin[idx].min()), float(smax[idx].max())
@@ -459,6 +459,9 @@ def strip_data(star: _Star, piece: Piece, fmap: FrameMap, flux: str, max_points:
             continue
         n = max(16, int(round(max_points * (b - a) / width)))
         w, y, d = _window(star, i, a, b, n, flux)
+        if waves and w.size:  # break the line between stored strips (echelle orders may gap)
+            waves.append(np.array([0.5 * (waves[-1][-1] + w[0]) if waves[-1].size else w[0]]))
+            ys.append(np.array([np.nan], dtype=np.float32))
         waves.append(w)
         ys.append(y)
         dec = dec or d

@@ -197,7 +197,9 @@ def test_html_page_mode_and_content(small_atlas, tmp_path):
     page = out.read_text(encoding="utf-8")
     assert "<script>alert(1)" not in page and "&lt;script&gt;alert(1)" in page
     assert not re.search(r"<script[^>]*\bsrc=", page)
-    assert "strip 4" in page and "strip 7" in page and "strip 8" not in page
+    # Strips count from 1 on screen: page 2 of 4 per page holds strips 5..8.
+    assert "strip 5" in page and "strip 8" in page and "strip 4" not in page
+    assert "strip 9" not in page
     with pytest.raises(InputError) as exc:
         ex.export_html(small_atlas, ALPHA, tmp_path / "w.html", per_page=4, page=5)
     assert exc.value.where == "page"
