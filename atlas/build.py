@@ -389,7 +389,7 @@ def build_atlas(
     options = options or BuildOptions()
     out = out or sys.stdout
     err = err or sys.stderr
-    atlas_url = os.fspath(atlas_url)
+    atlas_url = store.normalise(atlas_url)
     report = BuildReport()
     old = store.read_catalog(atlas_url)
     in_use = frozenset(r["store"] for r in (old or {}).get("stars", []))

@@ -86,6 +86,15 @@ def is_local(url: str) -> bool:
     return "file" in (fs.protocol if isinstance(fs.protocol, tuple) else (fs.protocol,))
 
 
+def normalise(url) -> str:
+    """A local path for local folders (``file://`` URLs included), else the URL unchanged."""
+    url = os.fspath(url)
+    if "://" not in url:
+        return url
+    fs, path = _fs(url)
+    return path if is_local(url) else url
+
+
 def join(url: str, *parts: str) -> str:
     """Join an atlas URL or path with relative parts (always '/')."""
     base = os.fspath(url).rstrip("/")
@@ -268,7 +277,7 @@ class Atlas:
 
 def open_atlas(path) -> Atlas:
     """Open an atlas folder or URL; InputError if it has no readable catalog."""
-    url = os.fspath(path)
+    url = normalise(path)
     cat = read_catalog(url)
     if cat is None:
         raise InputError(url, f"no {CATALOG} here: not a built atlas")

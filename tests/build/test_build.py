@@ -233,3 +233,27 @@ def test_slugs():
     assert store.slugify("Corran's Star") == "corrans-star"
     assert len(store.slugify("x" * 200)) == 64
     assert store.unique_id("a", {"a", "a-2"}) == "a-3"
+
+
+def test_fsspec_url_atlas(tmp_path):
+    # An object-store-like fsspec location (in memory): stores, catalog and reading.
+    import uuid
+
+    from atlas.lod import window
+
+    files = star_files(tmp_path, 1, n=8000)
+    url = f"memory://atlas-{uuid.uuid4().hex}"
+    rep = build_atlas(files, url, progress=False)
+    assert rep.committed
+    a = open_atlas(url)
+    star = a.star("star-0")
+    r = window(star, 0, 0.0, 1e9, 300)
+    assert 0 < len(r["wavelength"]) <= 300
+    assert build_atlas(files, url, progress=False).kept == ["star-0"]
+
+
+def test_file_url_is_a_local_folder(tmp_path):
+    files = star_files(tmp_path, 1, n=3000)
+    rep = build_atlas(files, f"file://{tmp_path}/atlas", progress=False)
+    assert rep.committed and (tmp_path / "atlas" / "atlas.json").exists()
+    assert open_atlas(f"file://{tmp_path}/atlas").ids == ["star-0"]
