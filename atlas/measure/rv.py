@@ -149,14 +149,18 @@ def line_mask(lines, medium: str = "vacuum"):
     """Positions (Å, in ``medium``) and initial weights of the lines used for RV.
 
     ``lines`` is the line-list DataFrame of :func:`atlas.lines.load_lines`; telluric
-    lines and molecular band heads are left out (`common practice`: they do not move
-    with the star or are not single lines).  ``medium`` ``air`` (or ``unknown``) uses
+    lines, molecular band heads and hydrogen lines are left out (`common practice`:
+    they do not move with the star, are not single lines, or are far broader).  ``medium`` ``air`` (or ``unknown``) uses
     the ``air_A`` column, ``vacuum`` the ``vacuum_A`` column.
     """
     df = lines
     keep = np.ones(len(df), dtype=bool)
     if "kind" in df:
         keep &= df["kind"].astype(str).str.lower().eq("atomic").to_numpy()
+    if "species" in df:
+        # hydrogen lines are far wider than the metal lines (Stark wings) and would drag
+        # the common line width of the template: left out (common practice for masks)
+        keep &= ~df["species"].astype(str).str.strip().eq("H I").to_numpy()
     if "telluric" in df:
         keep &= ~df["telluric"].astype(str).str.lower().isin(["true", "1", "yes"]).to_numpy()
     col = "vacuum_A" if medium == "vacuum" else "air_A"
@@ -485,6 +489,19 @@ def measure_rv(
         return RVResult(None, None, note="no correlation peak could be fitted",
                         ccf_velocity_kms=v_coarse, ccf=ccf_c)
     v0, s_ccf, amp_c, base_c = fit
+    max_sigma = 0.25 * (v_max_kms - v_min_kms)
+    if not (v_min_kms - pad <= v0 <= v_max_kms + pad) or s_ccf > max_sigma:
+        # the Gaussian ran away (a very broad or asymmetric peak): keep the maximum and
+        # the half-maximum width instead
+        v0 = float(v_coarse[ipk])
+        above = finite & (ccf_c >= 0.5 * (ccf_c[ipk] + np.nanmedian(ccf_c)))
+        lo_i = hi_i = ipk
+        while lo_i > 0 and above[lo_i - 1]:
+            lo_i -= 1
+        while hi_i < above.size - 1 and above[hi_i + 1]:
+            hi_i += 1
+        s_ccf = min(max((v_coarse[hi_i] - v_coarse[lo_i]) / FWHM_PER_SIGMA, sigma_t), max_sigma)
+        amp_c = float(ccf_c[ipk] - np.nanmedian(ccf_c))
     away = finite & (np.abs(v_coarse - v0) > 4 * s_ccf + 3 * sigma_t)
     noise_c = 1.482602 * np.median(np.abs(ccf_c[away] - np.median(ccf_c[away]))) if away.sum() > 10 else np.nan
     signif = amp_c / noise_c if noise_c > 0 else float("inf")
@@ -553,6 +570,9 @@ def measure_rv(
     if use.sum() >= 3:
         chi2r = float((((rv[use] - mean) / er[use]) ** 2).sum() / (use.sum() - 1))
         err *= max(1.0, math.sqrt(chi2r))
+    if not (v_min_kms - 2 * pad <= mean <= v_max_kms + 2 * pad):
+        result.note = f"the velocity fit left the search range ({mean:+.0f} km/s)"
+        return result
     result.rv_obs_kms = mean
     result.rv_err_kms = err
     result.photon_limit_kms = C_KMS / math.sqrt(info_total) if info_total > 0 else None

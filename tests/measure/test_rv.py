@@ -99,3 +99,25 @@ def test_dataset_wrapper_applies_barycentric_correction(synth, lines):
     ds2 = make_spectrum(wave, flux, sigma, medium="vacuum")
     res2 = rv.rv_of_spectrum(ds2, lines)
     assert res2.rv_kms is None and "missing time" in res2.note
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize(("teff_k", "vsini_kms"), [(5800.0, 3.0), (4500.0, 10.0), (5800.0, 25.0)])
+def test_velocity_of_model_star_with_voigt_lines_and_rotation(lines, teff_k, vsini_kms):
+    # Stars from atlas.synth (Saha-Boltzmann strengths, Voigt profiles, rotation; their
+    # lines are not the Gaussians of the template): injected 61.3 km/s back within 3 sigma
+    # (relativistic Doppler, astropy doppler_relativistic).
+    from atlas.synth.model import Star, synthesize
+
+    wave = np.exp(np.linspace(np.log(4800.0), np.log(6600.0), 60_000))
+    s = synthesize(wave, Star(teff_k=teff_k, vsini_kms=vsini_kms, rv_kms=61.3),
+                   resolving_power=50000)
+    flux = s.normalised * s.continuum
+    sigma = np.sqrt(flux * np.median(flux)) / 100
+    noisy = flux + np.random.default_rng(1).normal(size=wave.size) * sigma
+    lw, wt = rv.line_mask(lines, "vacuum")
+    res = rv.measure_rv(wave, noisy, sigma, line_wave_A=lw, line_weight=wt)
+    assert abs(res.rv_obs_kms - 61.3) < 3 * res.rv_err_kms, (res.rv_obs_kms, res.rv_err_kms)
+    # the rough v sin i is rough: only its order of magnitude is checked for fast rotators
+    if vsini_kms >= 20:
+        assert 0.5 < rv.vsini_rough(res.line_fwhm_kms, 50000) / vsini_kms < 1.5
