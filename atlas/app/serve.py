@@ -20,8 +20,9 @@ from atlas.app.viewer import KEYS_JS, Viewer
 TITLE = "Striae atlas"
 
 
-def create_session(atlas_path, query: str | None = None):
-    """Build one session's view.  ``query`` (``?a=b&...``) defaults to the browser's URL."""
+def create_session(atlas_path, query: str | None = None, keep: dict | None = None):
+    """Build one session's view.  ``query`` (``?a=b&...``) defaults to the browser's URL;
+    ``keep``, when given, receives the session's ``viewer`` (for tests and benchmarks)."""
     data = open_view_atlas(atlas_path)
     loc = pn.state.location if pn.state.curdoc is not None else None
     if query is None:
@@ -33,6 +34,8 @@ def create_session(atlas_path, query: str | None = None):
     if not data.star_ids:
         return pn.pane.Alert("This atlas holds no stars yet.", alert_type="warning")
     viewer = Viewer(data, state, notices)
+    if keep is not None:
+        keep["viewer"] = viewer
     if loc is not None and pn.state.curdoc is not None and pn.state.curdoc.session_context is not None:
         # Mirror the state to the URL.  Values arriving through the sync are checked again
         # by the viewer's watcher with the same rules as above.

@@ -168,6 +168,19 @@ def star_card_html(rec: dict, frame_note: str = "") -> str:
     return f'<div class="striae-card"><table>{body}</table>{note}</div>'
 
 
+def spectrum_columns(x, y, level: int) -> dict:
+    """Columns for a strip: real samples as a line (``lo`` = ``hi`` = ``y``), or min/max
+    envelopes (level > 0, pairs of points per bin) as a band at the bin centres."""
+    if level == 0 or len(x) < 2:
+        return {"x": x, "y": y, "lo": y, "hi": y}
+    n = len(x) // 2
+    xc = 0.5 * (x[0:2 * n:2] + x[1:2 * n:2])
+    a, b = y[0:2 * n:2], y[1:2 * n:2]
+    lo, hi = np.fmin(a, b), np.fmax(a, b)
+    return {"x": xc.astype(np.float32), "y": (0.5 * (lo + hi)).astype(np.float32),
+            "lo": lo.astype(np.float32), "hi": hi.astype(np.float32)}
+
+
 def plot_width_px(fig) -> int:
     """The plot's canvas width in pixels as the browser reported it (a default before)."""
     try:
@@ -184,7 +197,8 @@ class Slot:
         self.index = index
         self.strip: int | None = None
         self.drawn = None
-        self.src = ColumnDataSource({"x": np.zeros(0, np.float32), "y": np.zeros(0, np.float32)},
+        z = np.zeros(0, np.float32)
+        self.src = ColumnDataSource({"x": z, "y": z, "lo": z, "hi": z},
                                     name=f"spectrum-{index}")
         self.msrc = ColumnDataSource(markers._empty() | {"colour": []}, name=f"markers-{index}")
         self.fsrc = ColumnDataSource({"x": [], "y": [], "species": [], "rest": [], "ew": [], "colour": []})
@@ -216,6 +230,7 @@ class Slot:
             text_color="colour", angle=math.pi / 2, x_offset=-2, text_baseline="bottom",
             text_align="left",
         ))
+        fig.varea(x="x", y1="lo", y2="hi", source=self.src, fill_color=SPECTRUM, fill_alpha=0.85)
         fig.line("x", "y", source=self.src, line_color=SPECTRUM, line_width=1.1)
         fr = fig.scatter("x", "y", source=self.fsrc, marker="inverted_triangle", size=7,
                          fill_color="colour", line_color=None)
@@ -722,7 +737,7 @@ class Viewer:
         stored = fr.from_display_A(np.array([lo, hi]))
         w = self.data.window(st.star, strip, float(stored[0]), float(stored[1]), 2 * width, flux=flux)
         x = (fr.to_display_A(np.asarray(w["wavelength"], dtype=np.float64)) / sc).astype(np.float32)
-        slot.src.data = {"x": x, "y": np.asarray(w["flux"], dtype=np.float32)}
+        slot.src.data = spectrum_columns(x, np.asarray(w["flux"], dtype=np.float32), int(w.get("level", 0)))
         slot.level = int(w.get("level", 0))
         xr_ = slot.fig.x_range
         xr_.update(bounds=None)
