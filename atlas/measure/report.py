@@ -120,6 +120,15 @@ def measure_spectrum(ds, lines=None, *, calibrated: bool | None = None, site=Non
             uncertainty=sn, normalised=True, medium=lmed)
         out["lines"] = _records(found)
         out["unidentified"] = _records(unknown)
+        # the line width from weak identified lines (depth 0.05-0.5): strong lines'
+        # damping wings widen the RV template's common width
+        weak = found[(found.depth > 0.05) & (found.depth < 0.5)] if len(found) else found
+        out["line_fwhm_from"] = "RV template"
+        if len(weak) >= 5:
+            out["line_fwhm_kms"] = _num(np.median(weak.fwhm_kms))
+            out["line_fwhm_from"] = f"median of {len(weak)} weak identified lines"
+            out["vsini_rough_kms"] = _num(rvmod.vsini_rough(out["line_fwhm_kms"],
+                                                            ds.attrs.get("resolving_power")))
     if ew_ranges:
         out["ew"] = [equivalent_width(w, fn, lo, hi, uncertainty=sn).as_dict() for lo, hi in ew_ranges]
     out["notes"] = notes
