@@ -22,15 +22,20 @@ $(STAMP): pyproject.toml constraints.txt
 
 install: $(STAMP)
 
-# Debian's Chromium drives the browser tests (Playwright uses it; nothing is downloaded).
+# Debian packages the tests use: chromium (browser tests through Playwright; nothing is
+# downloaded) and poppler-utils (pdftotext/pdftoppm read the exported PDF pages).
+SYSTEM_PACKAGES := chromium poppler-utils
 chromium:
-	@if [ -x /usr/bin/chromium ]; then :; \
+	@missing=""; \
+	[ -x /usr/bin/chromium ] || missing="$$missing chromium"; \
+	command -v pdftoppm >/dev/null || missing="$$missing poppler-utils"; \
+	if [ -z "$$missing" ]; then :; \
 	elif [ "$$(id -u)" = 0 ]; then \
-	  echo "installing Debian's chromium for the browser tests"; \
-	  apt-get update -qq && DEBIAN_FRONTEND=noninteractive apt-get install -y -qq chromium; \
+	  echo "installing Debian packages for the tests:$$missing"; \
+	  apt-get update -qq && DEBIAN_FRONTEND=noninteractive apt-get install -y -qq $$missing >/dev/null; \
 	elif command -v sudo >/dev/null; then \
-	  sudo apt-get update -qq && sudo DEBIAN_FRONTEND=noninteractive apt-get install -y -qq chromium; \
-	else echo "note: /usr/bin/chromium is missing; browser tests will be skipped"; fi
+	  sudo apt-get update -qq && sudo DEBIAN_FRONTEND=noninteractive apt-get install -y -qq $$missing >/dev/null; \
+	else echo "note: missing$$missing; the tests that need them will be skipped"; fi
 
 test: install chromium
 	$(BIN)/python -m pytest
