@@ -48,7 +48,8 @@ def create_session(atlas_path, query: str | None = None, keep: dict | None = Non
                 loc.search = canon
 
         pn.state.onload(canonical)
-    pn.state.curdoc.title = f"{TITLE}: {state.star}" if pn.state.curdoc is not None else TITLE
+    if pn.state.curdoc is not None:
+        pn.state.curdoc.title = f"{TITLE}: {state.star}"
     return viewer.layout
 
 

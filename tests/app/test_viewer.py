@@ -114,3 +114,25 @@ def test_the_card_says_not_measured_for_nulls():
                                         ("red;x", None), ([1, float("nan"), 0], None), (None, None)])
 def test_swatch_colours(c, expected):
     assert swatch_css(c) == expected
+
+
+def test_a_link_with_bad_values_opens_with_defaults_and_a_notice(built_atlas):
+    from atlas.app.serve import create_session
+
+    keep = {}
+    create_session(built_atlas, query="?star=../etc&page=abc&lo=nan&hi=3&frame=rest", keep=keep)
+    v = keep["viewer"]
+    assert (v.state.star, v.state.page, v.state.lo, v.state.frame) == ("test-star-a", 1, None, "rest")
+    assert v.notice.visible
+    for what in ("star:", "page:", "lo/hi:"):
+        assert what in v.notice.object
+
+
+def test_a_value_set_behind_the_parsers_back_is_put_back(viewer):
+    # the URL sync may set any value its parameter type accepts; the state watcher re-checks
+    viewer.key("page+")
+    viewer.state.star = "no-such-star"
+    assert viewer.state.star == "test-star-a"
+    viewer.state.page = 999
+    assert viewer.state.page == viewer.n_pages()
+    assert viewer.notice.visible
