@@ -242,22 +242,10 @@ def build_star(path: str, options: BuildOptions, atlas_url: str, sha: str, in_us
     ds = read(path)
     seq, plan, notes = prepare(ds, options)
     n_samples = int(seq["wavelength"].size)
-    wmin, wmax = float(seq["wavelength"][0]), float(seq["wavelength"][-1])
-    if plan.mode == "orders":
-        wmin, wmax = float(np.min(seq["wavelength"])), float(np.max(seq["wavelength"]))
-    vac_vars = {"flux": ("sample", seq["flux"]), "mask": ("sample", seq["mask"])}
-    if seq.get("uncertainty") is not None:
-        vac_vars["uncertainty"] = ("sample", seq["uncertainty"])
-    vac = xr.Dataset(
-        vac_vars,
-        coords={"wavelength": ("sample", seq["wavelength"], {"medium": "vacuum"})},
-        attrs=dict(ds.attrs),
-    )
-    measurements, mnotes = star_measurements(vac, site=options.site, radec=options.radec, time=options.time)
-    notes += mnotes
-    del vac
+    wmin, wmax = float(np.min(seq["wavelength"])), float(np.max(seq["wavelength"]))
+    # Store first, then measure: the two largest memory peaks never overlap.
     root, levels = star_arrays(seq, plan)
-    del seq
+    seq.pop("continuum")
     name = str(ds.attrs.get("target") or "").strip() or os.path.splitext(os.path.basename(path))[0]
     slug = store.slugify(name, fallback=store.slugify(os.path.basename(path)))
     root.attrs.update(
@@ -280,6 +268,19 @@ def build_star(path: str, options: BuildOptions, atlas_url: str, sha: str, in_us
     key = _content_key(sha, options, path)
     sname = store.fresh_store_name(slug, key, atlas_url, set(in_use))
     store.write_star(atlas_url, sname, root, levels, _strips_per_chunk(root.sizes["pixel"], root.sizes["strip"]))
+    del root, levels
+    vac_vars = {"flux": ("sample", seq["flux"]), "mask": ("sample", seq["mask"])}
+    if seq.get("uncertainty") is not None:
+        vac_vars["uncertainty"] = ("sample", seq["uncertainty"])
+    vac = xr.Dataset(
+        vac_vars,
+        coords={"wavelength": ("sample", seq["wavelength"], {"medium": "vacuum"})},
+        attrs=dict(ds.attrs),
+    )
+    del seq
+    measurements, mnotes = star_measurements(vac, site=options.site, radec=options.radec, time=options.time)
+    notes += mnotes
+    del vac
     if plan.mode == "velocity":
         desc = f"{plan.n_strips} strips of {plan.width:g} km/s" + (" (chosen from the sampling)" if options.strip_kms is None else "")
     elif plan.mode == "equal_A":
@@ -493,7 +494,7 @@ def _run_dask(todo, options, atlas_url, in_use, workers, scheduler, bar) -> dict
             n_workers=int(workers),
             threads_per_worker=1,
             processes=True,
-            dashboard_address=None,
+            dashboard_address=":0",  # a free port, never a clash
             silence_logs=logging.ERROR,
         )
         client = Client(cluster)

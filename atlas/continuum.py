@@ -55,21 +55,33 @@ class ContinuumSettings:
         return asdict(self)
 
 
-def _bin_medians(x: np.ndarray, y: np.ndarray, nb: int):
-    """Median of x and of y (NaN-aware) over consecutive runs of ``nb`` samples."""
-    m = math.ceil(x.size / nb)
-    pad = m * nb - x.size
-    xs = np.concatenate([x, np.full(pad, np.nan)]).reshape(m, nb)
-    ys = np.concatenate([y, np.full(pad, np.nan)]).reshape(m, nb)
-    ys = np.sort(ys, axis=1)  # NaN sort last
-    nv = np.count_nonzero(np.isfinite(ys), axis=1)
+def _bin_medians(x: np.ndarray, y: np.ndarray, bad: np.ndarray | None, nb: int):
+    """Median of y (bad or NaN samples left out) over runs of ``nb`` samples, and each run's
+    middle x (x sorted).  Makes one copy of y, sorted in place."""
+    n = x.size
+    m = math.ceil(n / nb)
+    full = n // nb
+    ys = np.empty((m, nb))
+    ys[:full] = y[: full * nb].reshape(full, nb)
+    if m > full:
+        ys[full, : n - full * nb] = y[full * nb :]
+        ys[full, n - full * nb :] = np.nan
+    if bad is not None:
+        bm = np.zeros((m, nb), dtype=bool)
+        bm.reshape(-1)[:n] = bad
+        ys[bm] = np.nan
+        del bm
+    ys[~np.isfinite(ys)] = np.nan
+    ys.sort(axis=1)  # NaN sort last
+    nv = np.count_nonzero(~np.isnan(ys), axis=1)
     lo = np.clip((nv - 1) // 2, 0, nb - 1)
     hi = np.clip(nv // 2, 0, nb - 1)
     ym = 0.5 * (np.take_along_axis(ys, lo[:, None], 1)[:, 0] + np.take_along_axis(ys, hi[:, None], 1)[:, 0])
     ym[nv == 0] = np.nan
-    # x is sorted: the middle finite sample of each bin.
-    xv = np.count_nonzero(np.isfinite(xs), axis=1)
-    xm = np.take_along_axis(xs, np.clip((xv - 1) // 2, 0, nb - 1)[:, None], 1)[:, 0]
+    del ys
+    start = np.arange(m) * nb
+    length = np.minimum(nb, n - start)
+    xm = x[start + (length - 1) // 2]
     return xm, ym
 
 
@@ -108,23 +120,26 @@ def _pspline(x, y, t, lam_rel):
     return solveh_banded(bands, rhs)
 
 
-def _fit_segment(lnw: np.ndarray, flux: np.ndarray, s: ContinuumSettings) -> np.ndarray:
-    """Continuum of one sorted segment (ln wavelength, flux with NaN for masked samples)."""
+def _fit_segment(lnw: np.ndarray, flux: np.ndarray, bad: np.ndarray | None, s: ContinuumSettings) -> np.ndarray:
+    """Continuum of one sorted segment (ln wavelength, flux, bad-sample mask or None)."""
     n = lnw.size
     out = np.full(n, np.nan)
-    good = np.isfinite(flux)
-    if np.count_nonzero(good) < 4:
-        if good.any():
+    good = np.isfinite(flux) if bad is None else (np.isfinite(flux) & ~bad)
+    n_good = int(np.count_nonzero(good))
+    if n_good < 4:
+        if n_good:
             out[:] = np.median(flux[good])
         return out
-    step = np.median(np.diff(lnw)) * C_KMS if n > 1 else s.bin_kms
+    del good
+    stride = max(1, n // 200_000)  # the median step of a subsample is plenty (and small)
+    step = float(np.median(np.diff(lnw[::stride])) / stride * C_KMS) if n > stride else s.bin_kms
     nb = int(max(1, round(s.bin_kms / step))) if step > 0 else 1
     nb = max(nb, math.ceil(n / MAX_BINS))  # bounded cost for very long spectra
-    xb, yb = _bin_medians(lnw, flux, nb)
+    xb, yb = _bin_medians(lnw, flux, bad, nb)
     ok = np.isfinite(xb) & np.isfinite(yb)
     xb, yb = xb[ok], yb[ok]
     if xb.size < 4:
-        out[:] = np.nanmedian(flux)
+        out[:] = np.nanmedian(yb)
         return out
     x0, x1 = lnw[0], lnw[-1]
     span_kms = (x1 - x0) * C_KMS
@@ -177,15 +192,13 @@ def fit_continuum(wave_A, flux, mask=None, settings: ContinuumSettings | None = 
     """
     s = settings or ContinuumSettings()
     wave = np.asarray(wave_A, dtype=np.float64)
-    f = np.array(flux, dtype=np.float64)
-    if mask is not None:
-        f[np.asarray(mask, dtype=bool)] = np.nan
-    f[~np.isfinite(f)] = np.nan
+    f = np.asarray(flux, dtype=np.float64)
+    bad = None if mask is None else np.asarray(mask, dtype=bool)
     lnw = np.log(wave)
     out = np.empty(wave.size)
     for a, b in segments or [(0, wave.size)]:
         if b > a:
-            out[a:b] = _fit_segment(lnw[a:b], f[a:b], s)
+            out[a:b] = _fit_segment(lnw[a:b], f[a:b], None if bad is None else bad[a:b], s)
     return out
 
 
