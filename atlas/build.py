@@ -457,7 +457,7 @@ def build_atlas(
         _say(f"kept {rid} (unchanged)", out)
 
     if not records:
-        _say("nothing built: the atlas was left as it was", err)
+        _say("nothing built: the atlas was left as it was", out)
         return report
     records = [{k: r.get(k) for k in store.RECORD_KEYS} for r in records]
     for r in records:
