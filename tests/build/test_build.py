@@ -257,3 +257,16 @@ def test_file_url_is_a_local_folder(tmp_path):
     rep = build_atlas(files, f"file://{tmp_path}/atlas", progress=False)
     assert rep.committed and (tmp_path / "atlas" / "atlas.json").exists()
     assert open_atlas(f"file://{tmp_path}/atlas").ids == ["star-0"]
+
+
+def test_only_bad_files_commit_nothing(tmp_path, capsys, three):
+    assert_one_line_error = one_line_error_check()
+    out = tmp_path / "atlas"
+    build_atlas(three[:1], out, progress=False)
+    before = (out / "atlas.json").read_bytes()
+    bad = tmp_path / "empty.csv"
+    bad.write_text("")
+    proc = _cli(capsys, "build", bad, "--out", out)
+    assert_one_line_error(proc, str(bad))
+    assert (out / "atlas.json").read_bytes() == before  # the old atlas is untouched
+    assert open_atlas(out).ids == ["star-0"]
