@@ -245,6 +245,7 @@ class Slot:
             code=READOUT_JS))
         fig.on_event(RangesUpdate, lambda ev: viewer.on_range(self, ev))
         fig.on_event(Reset, lambda ev: viewer.on_reset(self))
+        fig.on_change("inner_width", lambda attr, old, new: viewer.on_width())
         self.fig = fig
 
 
@@ -260,6 +261,7 @@ class Viewer:
         self._placed = None
         self._yrange: dict = {}
         self._busy = False
+        self._width_pending = False
         self.meta = ColumnDataSource({"scale": [1.0], "ref_A": [0.0], "ref_name": [""],
                                       "frame": ["observed"]})
         self.readout = Div(text="move the cursor over a strip for wavelength, velocity and flux",
@@ -530,6 +532,22 @@ class Viewer:
         if cur[0] is not None and abs(cur[0] - x0) < 1e-6 and abs(cur[1] - x1) < 1e-6:
             return
         self.state.param.update(lo=x0, hi=x1)
+
+    def on_width(self):
+        """The browser reported (new) plot widths: redraw once, with at most 2 points a pixel."""
+        if self._width_pending:
+            return
+        self._width_pending = True
+
+        def redraw():
+            self._width_pending = False
+            self.refresh()
+
+        doc = pn.state.curdoc
+        if doc is not None and doc.session_context is not None:
+            doc.add_next_tick_callback(redraw)
+        else:
+            redraw()
 
     def on_reset(self, slot: Slot):
         if self.zoom_strip() == slot.strip:

@@ -67,6 +67,9 @@ def test_the_atlas_opens_without_console_errors(server, viewer_page, tmp_path):
     assert page.errors == []
     s = slots(page)
     assert len(s) == 5  # default strips per page
+    # once the browser has reported the plot widths, no strip holds more than 2 points a pixel
+    assert wait_for(lambda: all(x["n"] <= 2 * x["width"] for x in slots(page))), \
+        [(x["n"], x["width"]) for x in slots(page)]
     assert query(page)["star"] == "test-star-a"
 
 
