@@ -306,20 +306,22 @@ class Viewer:
                                                           sizing_mode="stretch_width")
         self.w_per_page = pn.widgets.IntSlider.from_param(st.param.per_page, label="Strips per page",
                                                           sizing_mode="stretch_width")
-        self.w_copy = pn.widgets.Button(label="Copy link to this view", color="primary",
-                                        sizing_mode="stretch_width")
+        self.w_copy = pn.widgets.Button(label="Copy link", color="primary", width=100,
+                                        description="copy the address of this view", margin=(4, 4))
         self.w_copy.js_on_click(code="""
             const url = window.location.href;
-            if (navigator.clipboard) { navigator.clipboard.writeText(url); }
-            window.prompt('Link to this view', url);""")
-        b = dict(width=66, color="default", margin=(4, 2))
+            const ask = () => window.prompt('Link to this view', url);
+            if (navigator.clipboard && window.isSecureContext) {
+              navigator.clipboard.writeText(url).catch(ask);
+            } else { ask(); }""")
+        b = dict(width=62, color="default", margin=(4, 2))
         self.w_first = pn.widgets.Button(label="⇤ first", description="first page (Home)", **b)
         self.w_prev_page = pn.widgets.Button(label="◀ page", description="previous page (PageUp)", **b)
         self.w_prev_strip = pn.widgets.Button(label="↑ strip", description="previous strip (↑ or ←)", **b)
         self.w_next_strip = pn.widgets.Button(label="↓ strip", description="next strip (↓ or →)", **b)
         self.w_next_page = pn.widgets.Button(label="page ▶", description="next page (PageDown)", **b)
         self.w_last = pn.widgets.Button(label="last ⇥", description="last page (End)", **b)
-        self.w_whole = pn.widgets.Button(label="whole strips", width=110, margin=(4, 6))
+        self.w_whole = pn.widgets.Button(label="whole strips", width=104, margin=(4, 4))
         for w, act in ((self.w_first, "first"), (self.w_prev_page, "page-"), (self.w_prev_strip, "strip-"),
                        (self.w_next_strip, "strip+"), (self.w_next_page, "page+"), (self.w_last, "last"),
                        (self.w_whole, "whole")):
@@ -353,7 +355,7 @@ class Viewer:
 
     def _build_layout(self):
         nav = pn.Row(self.w_first, self.w_prev_page, self.w_prev_strip, self.w_next_strip,
-                     self.w_next_page, self.w_last, self.page_label, pn.layout.HSpacer(), self.w_whole,
+                     self.w_next_page, self.w_last, self.page_label, pn.layout.HSpacer(), self.w_whole, self.w_copy,
                      sizing_mode="stretch_width", margin=0)
         main = pn.Column(
             nav, self.notice,
@@ -372,7 +374,7 @@ class Viewer:
                          margin=(6, 10)),
             self.w_star, self.card, self.w_jump,
             label("Frame"), self.w_frame, label("Wavelengths in"), self.w_medium, self.w_unit,
-            label("Flux"), self.w_flux, self.w_lines, self.w_strength, self.w_per_page, self.w_copy,
+            label("Flux"), self.w_flux, self.w_lines, self.w_strength, self.w_per_page,
             pn.pane.HTML('<div style="font-size:11px;color:#5a6275">Keys: ↓/→ next strip, ↑/← previous,'
                          ' PageDown/PageUp pages, Home/End. Drag to pan, box tool or'
                          ' Ctrl + wheel to zoom; the reset tool shows the whole strip again.</div>', margin=(6, 10)),
@@ -658,9 +660,9 @@ class Viewer:
         self.card.object = star_card_html(self.record(), self.frame_fallback())
         strips = self.page_strips()
         zs = self.zoom_strip()
-        extra = f" · zoomed in strip {zs + 1}" if zs is not None else ""
+        extra = f" · focus: strip {zs + 1}" if zs is not None else ""
         unit = "Å" if st.unit == "A" else "nm"
-        extra += f" · wavelengths in {unit}, {st.medium}, {st.frame} frame"
+        extra += f" · {unit} {st.medium}, {st.frame} frame"
         self.page_label.object = (f"page <b>{st.page}</b> of {self.n_pages()} · strips "
                                   f"{strips[0] + 1}–{strips[-1] + 1} of {self.n_strips()}{extra}"
                                   if strips else "no strips")
