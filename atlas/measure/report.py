@@ -42,7 +42,8 @@ def normalised_1d(ds, continuum=None):
         with np.errstate(divide="ignore", invalid="ignore"):
             fn = f / c
             sn = None if unc is None else unc[k][o] / c
-        keep = ~b & np.isfinite(fn) & (c > 0)
+        # where the continuum failed (order ends, blaze edges) the ratio is absurd: dropped
+        keep = ~b & np.isfinite(fn) & (c > 0) & (fn > -0.2) & (fn < 2.0)
         ws.append(w[keep])
         fs.append(fn[keep])
         rs.append(f[keep])

@@ -29,6 +29,7 @@ Wright & Eastman (2014), PASP 126, 838 (barycentric correction).
 from __future__ import annotations
 
 import math
+import warnings
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -171,12 +172,13 @@ def line_mask(lines, medium: str = "vacuum"):
     return wave[good], weight[good]
 
 
-def _gauss(v, a, mu, s, c0):
-    return c0 + a * np.exp(-0.5 * ((v - mu) / s) ** 2)
-
-
 def _fit_peak(v, ccf, guess_mu=None, guess_s=None, half_window=None):
-    """Gaussian fit (scipy curve_fit) to a CCF peak: (mu, sigma, amplitude, base) or None."""
+    """Gaussian fit (scipy curve_fit) to the top of a CCF peak: (mu, sigma, amplitude, base).
+
+    The baseline is the CCF's median; only the contiguous run above 75 % of the peak
+    height (or ``half_window`` around the peak) is fitted, so a blend on one flank
+    does not pull the centre.  Returns None when no peak can be fitted.
+    """
     v = np.asarray(v)
     ccf = np.asarray(ccf)
     good = np.isfinite(ccf)
@@ -188,35 +190,44 @@ def _fit_peak(v, ccf, guess_mu=None, guess_s=None, half_window=None):
     amp = float(ccf[i] - base)
     if amp <= 0:
         return None
-    if guess_s is None:
-        above = ccf > base + 0.5 * amp
-        # contiguous run around the peak
-        lo = i
+
+    def run_above(level):
+        above = ccf > level
+        lo = hi = i
         while lo > 0 and above[lo - 1]:
             lo -= 1
-        hi = i
         while hi < ccf.size - 1 and above[hi + 1]:
             hi += 1
-        guess_s = max((v[hi] - v[lo]) / FWHM_PER_SIGMA, abs(v[1] - v[0]))
+        return lo, hi
+
+    step = abs(v[1] - v[0])
+    if guess_s is None:
+        lo, hi = run_above(base + 0.5 * amp)
+        guess_s = max((v[hi] - v[lo]) / FWHM_PER_SIGMA, step)
     if half_window is None:
-        half_window = 1.5 * guess_s
-    sel = np.abs(v - v[i]) <= half_window
+        lo, hi = run_above(base + 0.75 * amp)
+        sel = np.zeros(v.size, dtype=bool)
+        sel[lo : hi + 1] = True
+    else:
+        sel = np.abs(v - v[i]) <= half_window
     if sel.sum() < 5:
-        sel = np.argsort(np.abs(v - v[i]))[:5]
+        sel = np.zeros(v.size, dtype=bool)
+        sel[np.argsort(np.abs(v - v[i]))[:5]] = True
+
+    def model(x, a, mu, s):
+        return base + a * np.exp(-0.5 * ((x - mu) / s) ** 2)
+
     try:
-        p, _ = optimize.curve_fit(
-            _gauss,
-            v[sel],
-            ccf[sel],
-            p0=(amp, v[i], guess_s, base),
-            maxfev=2000,
-        )
-    except (RuntimeError, ValueError, optimize.OptimizeWarning):
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            p, _ = optimize.curve_fit(model, v[sel], ccf[sel], p0=(amp, v[i], guess_s),
+                                      maxfev=2000)
+    except (RuntimeError, ValueError):
         return None
-    a, mu, s, c0 = p
-    if not (np.isfinite(mu) and a > 0 and s != 0) or abs(mu - v[i]) > 2 * abs(guess_s) + abs(v[1] - v[0]):
+    a, mu, s = p
+    if not (np.isfinite(mu) and a > 0 and s != 0) or abs(mu - v[i]) > 2 * abs(guess_s) + step:
         return None
-    return float(mu), abs(float(s)), float(a), float(c0)
+    return float(mu), abs(float(s)), float(a), base
 
 
 @dataclass
@@ -252,7 +263,8 @@ def _segments(wave_A, flux, uncertainty, mask, continuum, normalised, n_strips):
         with np.errstate(invalid="ignore", divide="ignore"):
             fn = f / c
             sn = None if unc is None else unc[k][order] / np.abs(c)
-        b |= ~np.isfinite(fn) | (c <= 0)
+        # where the continuum failed (order ends, blaze edges) the ratio is absurd: masked
+        b |= ~np.isfinite(fn) | (c <= 0) | (fn < -0.2) | (fn > 2.0)
         if sn is not None:
             b |= ~np.isfinite(sn) | (sn <= 0)
         pieces.append((w, fn, sn, b))
@@ -368,7 +380,7 @@ def _fit_depths(sg, xl, sigma_x, dx0):
     return np.clip(depth, 0.0, None)
 
 
-def _solve_strip(sg, xl, sigma_x, dx0, iterations=5):
+def _solve_strip(sg, xl, sigma_x, dx0, iterations=8, fit_width=True):
     """Joint least-squares shift, width and depths of one strip.
 
     Returns (dx, err_dx, depths, info, sigma_x) or None.  Alternates the line depths
@@ -388,11 +400,15 @@ def _solve_strip(sg, xl, sigma_x, dx0, iterations=5):
                         [-np.sum(dt * ds * sg.ivar), np.sum(ds * ds * sg.ivar)]])
         rhs = np.array([-np.sum(r * dt), np.sum(r * ds)])
         try:
-            step_x, step_s = np.linalg.solve(jac, rhs)
-        except np.linalg.LinAlgError:
+            if fit_width:
+                step_x, step_s = np.linalg.solve(jac, rhs)
+            else:
+                step_x, step_s = rhs[0] / jac[0, 0], 0.0
+        except (np.linalg.LinAlgError, ZeroDivisionError):
             return None
-        step_x = float(np.clip(step_x, -sigma_x, sigma_x))
-        step_s = float(np.clip(step_s, -0.3 * sigma_x, 0.3 * sigma_x))
+        # small damped steps: with few broad lines Gauss-Newton can wander far
+        step_x = float(np.clip(step_x, -0.3 * sigma_x, 0.3 * sigma_x))
+        step_s = float(np.clip(step_s, -0.1 * sigma_x, 0.1 * sigma_x)) if fit_width else 0.0
         dx += step_x
         sigma_x += step_s
         if abs(step_x) * math.sqrt(jac[0, 0]) < 1e-3 and abs(step_s) < 1e-4 * sigma_x:
@@ -466,7 +482,10 @@ def measure_rv(
     xl_all = np.log(lw)
     xmin = min(s.x[0] for s in segs)
     xmax = max(s.x[-1] for s in segs)
-    margin = max(abs(v_min_kms), abs(v_max_kms)) / C_KMS * 1.05 + 1e-4
+    # the CCF runs BASE_PAD_KMS beyond the search range on both sides, for its baseline
+    # and noise (broad-lined stars have peaks hundreds of km/s wide)
+    base_pad = 600.0
+    margin = (max(abs(v_min_kms), abs(v_max_kms)) + base_pad) / C_KMS * 1.05 + 1e-4
     sel = (xl_all > xmin - margin) & (xl_all < xmax + margin)
     xl_all, wl = xl_all[sel], wl[sel]
     if xl_all.size == 0:
@@ -475,9 +494,9 @@ def measure_rv(
     # ---- coarse search with a narrow template
     pix_kms = float(np.median([np.median(np.diff(s.x)) for s in segs])) * C_KMS
     sigma_t = max(pix_kms, 0.3)
-    step_v = max(pix_kms / 2.0, (v_max_kms - v_min_kms) / 3000.0)
+    step_v = max(pix_kms / 2.0, (v_max_kms - v_min_kms + 2 * base_pad) / 4000.0)
     pad = 10 * sigma_t
-    v_coarse = np.arange(v_min_kms - pad, v_max_kms + pad + step_v / 2, step_v)
+    v_coarse = np.arange(v_min_kms - base_pad, v_max_kms + base_pad + step_v / 2, step_v)
     ccf_c = _coarse_ccf(segs, xl_all, wl, v_coarse, sigma_t)
     inrange = (v_coarse >= v_min_kms) & (v_coarse <= v_max_kms) & np.isfinite(ccf_c)
     if not inrange.any():
@@ -502,8 +521,17 @@ def measure_rv(
             hi_i += 1
         s_ccf = min(max((v_coarse[hi_i] - v_coarse[lo_i]) / FWHM_PER_SIGMA, sigma_t), max_sigma)
         amp_c = float(ccf_c[ipk] - np.nanmedian(ccf_c))
+    # significance: the peak over the scatter of the CCF away from it, after removing
+    # the slow trends of blended wings (a running median 8 peak widths long)
     away = finite & (np.abs(v_coarse - v0) > 4 * s_ccf + 3 * sigma_t)
-    noise_c = 1.482602 * np.median(np.abs(ccf_c[away] - np.median(ccf_c[away]))) if away.sum() > 10 else np.nan
+    width = int(8 * s_ccf / step_v) | 1
+    trend = ndimage.median_filter(np.where(finite, ccf_c, np.nanmedian(ccf_c)), size=max(width, 3))
+    detr = ccf_c - trend
+    noise_c = (1.482602 * np.median(np.abs(detr[away] - np.median(detr[away])))
+               if away.sum() > 10 else np.nan)
+    near = finite & (np.abs(v_coarse - v0) > 3 * s_ccf) & (np.abs(v_coarse - v0) < 6 * s_ccf)
+    local_base = float(np.median(ccf_c[near])) if near.sum() > 3 else float(np.nanmedian(ccf_c))
+    amp_c = float(ccf_c[ipk]) - local_base
     signif = amp_c / noise_c if noise_c > 0 else float("inf")
     result = RVResult(None, None, ccf_velocity_kms=v_coarse, ccf=ccf_c)
     result.significance = float(signif) if np.isfinite(signif) else None
@@ -517,6 +545,15 @@ def measure_rv(
 
     # ---- matched template and fine search per strip
     sigma_x = sigma_line / C_KMS
+    # remove what the template cannot model and would bias it: slow trends of the depth
+    # (wings of unlisted broad lines, continuum errors), by a running median 15 line
+    # widths long (common practice: a local pseudo-continuum)
+    for sg in segs:
+        size = int(15 * FWHM_PER_SIGMA * sigma_line / pix_kms) | 1
+        if size < sg.d.size // 2:
+            ok_ = sg.ivar > 0
+            trend = ndimage.median_filter(np.where(ok_, sg.d, 0.0), size=size, mode="nearest")
+            sg.d = np.where(ok_, sg.d - trend, 0.0)
     dx0 = math.atanh(v0 / C_KMS)
     strips = []
     info_total = 0.0
@@ -531,7 +568,8 @@ def measure_rv(
         if xl.size == 0:
             strip.used, strip.note = False, "no listed line in this strip"
             continue
-        sol = _solve_strip(sg, xl, sigma_x, dx0)
+        # the common width is fitted only where enough lines constrain it
+        sol = _solve_strip(sg, xl, sigma_x, dx0, fit_width=xl.size >= 8)
         if sol is None:
             strip.used, strip.note = False, "no line found in this strip"
             continue
@@ -570,6 +608,9 @@ def measure_rv(
     if use.sum() >= 3:
         chi2r = float((((rv[use] - mean) / er[use]) ** 2).sum() / (use.sum() - 1))
         err *= max(1.0, math.sqrt(chi2r))
+        if chi2r > 25.0 or (~use).sum() > 0.25 * use.size:
+            result.note = ("strips disagree (reduced chi-square "
+                           f"{chi2r:.0f}, {(~use).sum()} of {use.size} set aside): velocity unreliable")
     if not (v_min_kms - 2 * pad <= mean <= v_max_kms + 2 * pad):
         result.note = f"the velocity fit left the search range ({mean:+.0f} km/s)"
         return result
