@@ -7,8 +7,8 @@ the same continuum procedure.  The best template and its better neighbour are mi
 linearly (least squares) to place the star between grid classes; the mixing fraction
 interpolates the subclass and, in log Teff, the temperature.  The confidence is the
 share of the likelihood exp(-(chi2 - chi2_min) / (2 chi2_min/dof)) that falls on the
-reported letter (chi2 scaled by the best reduced chi2, as template mismatch, not
-photon noise, dominates).
+templates within 5 subclasses of the estimate (chi2 scaled by the best reduced chi2,
+as template mismatch, not photon noise, dominates).
 
 References
 ----------
@@ -76,16 +76,17 @@ def is_calibrated(ds) -> bool:
 def colour_temperature(wave_A, flux, uncertainty=None, mask=None, *, nbins: int = 400):
     """Colour temperature (K, error K) from a Planck fit to a flux-calibrated spectrum.
 
-    The flux is first reduced to ``nbins`` medians of equal ln(wavelength) width (lines
-    bias a median little, and it keeps the fit fast); each bin's error is
-    1.2533 * sigma / sqrt(n) (the standard error of a median of Gaussian noise; from
-    memory of Kendall & Stuart), sigma from ``uncertainty`` or DER_SNR.
+    The Planck curve is fitted to the spectrum's continuum (the build's upper-envelope
+    fit, :func:`atlas.measure.rv.normalise`, so absorption lines do not cool it), read
+    in ``nbins`` bins of equal ln(wavelength) width; each bin's error is
+    sigma / sqrt(n) (sigma from ``uncertainty`` or DER_SNR).  The error is multiplied by
+    sqrt(reduced chi-square) when the curve fits worse than the noise allows.
 
     References
     ----------
     Planck (1901); :func:`atlas.physics.planck.fit_colour_temperature`.
     """
-    from atlas.physics.planck import fit_colour_temperature
+    from atlas.physics.planck import b_lambda, fit_colour_temperature
 
     w = np.asarray(wave_A, dtype=np.float64).ravel()
     f = np.asarray(flux, dtype=np.float64).ravel()
@@ -98,6 +99,7 @@ def colour_temperature(wave_A, flux, uncertainty=None, mask=None, *, nbins: int 
     order = np.argsort(w)
     w, f = w[order], f[order]
     s = None if s is None else s[order]
+    cont = normalise(w, f)
     x = np.log(w)
     edges = np.linspace(x[0], x[-1] + 1e-12, nbins + 1)
     idx = np.searchsorted(edges, x, side="right") - 1
@@ -106,14 +108,19 @@ def colour_temperature(wave_A, flux, uncertainty=None, mask=None, *, nbins: int 
         a, b = np.searchsorted(idx, [i, i + 1])
         if b - a < 5:
             continue
-        fi = f[a:b]
-        sig = float(np.median(s[a:b])) if s is not None else der_noise(fi)
-        if not (sig > 0):
-            sig = float(np.std(fi)) or 1e-30
+        sig = float(np.median(s[a:b])) if s is not None else der_noise(f[a:b])
+        c_i = float(np.median(cont[a:b]))
+        if not (sig > 0 and np.isfinite(c_i) and c_i > 0):
+            continue
         bw.append(float(np.exp(np.mean(x[a:b]))))
-        bf.append(float(np.median(fi)))
-        bs.append(1.2533 * sig / math.sqrt(b - a))
-    teff, err, _ = fit_colour_temperature(np.array(bw), np.array(bf), np.array(bs))
+        bf.append(c_i)
+        bs.append(sig / math.sqrt(b - a))
+    bw, bf, bs = np.array(bw), np.array(bf), np.array(bs)
+    teff, err, scale = fit_colour_temperature(bw, bf, bs)
+    model = scale * np.asarray(b_lambda(bw, teff), dtype=np.float64)
+    chi2r = float(np.sum(((bf - model) / bs) ** 2) / max(bw.size - 2, 1))
+    if np.isfinite(chi2r) and chi2r > 1.0:
+        err *= math.sqrt(chi2r)
     return float(teff), float(err)
 
 
@@ -221,7 +228,8 @@ def classify(wave_A, flux, uncertainty=None, mask=None, *, rv_obs_kms: float = 0
     scale = max(chi2[k] / dof, 1.0)
     like = np.exp(-(chi2 - chi2[k]) / (2 * scale))
     label = class_name(best_num)
-    same_letter = np.array([n[0] == label[0] for n in names])
-    conf = float(like[same_letter].sum() / like.sum())
+    # templates within 5 subclasses of the estimate (its grid neighbours) share the credit
+    near = np.array([abs(class_number(n) - best_num) <= 5.0 for n in names])
+    conf = float(like[near].sum() / like.sum())
     second = names[int(np.argsort(chi2)[1])] if len(names) > 1 else None
     return ClassResult(label, conf, float(best_teff), names[k], second)
