@@ -38,7 +38,7 @@ def normalised_1d(ds, continuum=None):
     for k in range(flux.shape[0]):
         o = np.argsort(wave[k], kind="stable")
         w, f, b = wave[k][o], flux[k][o], mask[k][o] | ~np.isfinite(flux[k][o])
-        c = cont[k][o] if cont is not None else rvmod.normalise(w, f, b)
+        c = cont[k][o] if cont is not None else rvmod.normalise(w, f, b, order=flux.shape[0] > 1)
         with np.errstate(divide="ignore", invalid="ignore"):
             fn = f / c
             sn = None if unc is None else unc[k][o] / c
