@@ -1,7 +1,7 @@
 """A standalone HTML page of stacked strips: Bokeh plots with data and scripts inline.
 
 The page opens from ``file://`` with no server and no network: BokehJS is embedded
-(``resources=INLINE``) and the data are already decimated, since no Python runs
+(inline resources, Bokeh's own only) and the data are already decimated, since no Python runs
 there.  Pan and zoom work in the browser; line labels were thinned for the page width
 beforehand.  Every piece of user text (star name, notes, file names) reaches the page
 either HTML-escaped in the header or as canvas text and escaped tooltips, so a note
@@ -19,6 +19,7 @@ from collections.abc import Sequence
 import numpy as np
 from bokeh.embed import file_html
 from bokeh.layouts import column
+from bokeh.model import Model
 from bokeh.models import (
     ColumnDataSource,
     Div,
@@ -27,7 +28,7 @@ from bokeh.models import (
     Range1d,
 )
 from bokeh.plotting import figure
-from bokeh.resources import INLINE
+from bokeh.resources import Resources
 
 from atlas.export_parts import (
     LineMarker,
@@ -45,6 +46,37 @@ LABEL_PX = 9  # label font size; labels are turned 90 degrees
 _STELLAR = "#1f4e8c"
 _TELLURIC = "#7a7a7a"
 _MARK = "#e8b33c"
+
+
+class BokehOnlyResources(Resources):
+    """Inline BokehJS with the external scripts of Bokeh's own models only.
+
+    Bokeh adds the ``__javascript__`` of every model class registered in the process;
+    once Panel has been imported (as in ``striae serve`` or the app's tests) that adds a
+    relative ``static/extensions/panel/...`` script, which a file opened from disk cannot
+    load.  The exported page draws only Bokeh models, so only theirs are collected.
+    """
+
+    def _collect_external_resources(self, resource_attr) -> list[str]:
+        out: list[str] = []
+        for _, cls in sorted(Model.model_class_reverse_map.items(), key=lambda kv: kv[0]):
+            if not cls.__module__.startswith("bokeh."):
+                continue
+            ext = getattr(cls, resource_attr, None)
+            for e in [ext] if isinstance(ext, str) else (ext or []):
+                if e not in out:
+                    out.append(e)
+        return out
+
+    def clone(self, *, components=None) -> BokehOnlyResources:
+        """A copy that keeps this class (Bokeh's own ``clone`` returns a plain Resources)."""
+        return BokehOnlyResources(
+            mode=self.mode, version=self.version, root_dir=self.root_dir, dev=self.dev,
+            minified=self.minified, log_level=self.log_level, root_url=self._root_url,
+            path_versioner=self.path_versioner,
+            components=components if components is not None else list(self.components),
+            base_dir=self.base_dir,
+        )
 
 
 def _y_range(strip: StripData, normalized: bool) -> tuple[float, float]:
@@ -155,4 +187,4 @@ def render_html(strips: Sequence[StripData], text: PageText, markers: Sequence[L
     header = Div(text=_header_html(text, marks, unit_word), sizing_mode="stretch_width")
     plots = [strip_figure(s, text, markers, marks, normalized=normalized) for s in strips]
     layout = column(header, *plots, sizing_mode="stretch_width")
-    return file_html(layout, resources=INLINE, title=f"{text.title}: spectrum strips")
+    return file_html(layout, resources=BokehOnlyResources(mode="inline"), title=f"{text.title}: spectrum strips")
