@@ -43,7 +43,11 @@ def test_catalog_has_the_contract_keys(tmp_path, three):
         assert store.ID_RE.fullmatch(rec["id"])
         assert rec["store"].startswith("stars/") and rec["store"].endswith(".zarr")
         assert rec["colour_srgb"].startswith("#") and len(rec["colour_srgb"]) == 7
-        assert rec["rv_kms"] is None and rec["teff_k"] is None
+        for k in ("barycentric_kms", "rv_kms", "rv_err_kms", "teff_k", "snr", "resolving_power"):
+            assert rec[k] is None or isinstance(rec[k], int | float), (k, rec[k])
+        assert rec["spectral_class"] is None or isinstance(rec["spectral_class"], str)
+        assert rec["barycentric_kms"] is None  # these files give no time, site or coordinates
+        assert rec["snr"] > 0 and rec["samples"] == 15_000
     assert [r["id"] for r in cat["stars"]] == ["star-0", "star-1", "star-2"]
 
 

@@ -30,7 +30,7 @@ def test_two_workers_build_the_same_atlas_as_serial(tmp_path):
 
     files = star_files(tmp_path, 3, n=20_000)
     serial = build_atlas(files, tmp_path / "serial", progress=False)
-    with LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None,
+    with LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=":0",
                       silence_logs=logging.ERROR) as cluster, Client(cluster) as client:
         # The same speed-up as in-process (see conftest.py), on each worker process.
         client.run(_patch_planck, fast_b_lambda)
