@@ -44,6 +44,7 @@ import numpy as np
 from atlas import __version__
 from atlas.errors import InputError
 from atlas.export_parts import LineMarker, MarkBand, PageText, StripData
+from atlas.frames import Frame
 
 SLUG = re.compile(r"^[a-z0-9][a-z0-9-]{0,63}$")
 SPECIES = re.compile(r"^[A-Za-z][A-Za-z0-9]{0,7}( [IVX]{1,4})?$")
@@ -217,82 +218,8 @@ def make_view(view: Mapping | None = None, **kw) -> ExportView:
 # ------------------------------------------------------------------------- frames
 
 
-@dataclass(frozen=True)
-class FrameMap:
-    """Stored wavelengths (vacuum Å, observer's frame) to displayed values and back.
-
-    Frames compose multiplicative Doppler factors D(v) of :mod:`atlas.physics.doppler`:
-    barycentric lambda = lambda_obs * D(v_bary), the composition Wright & Eastman
-    (2014, PASP 126, 838) give for v_true = v_obs + v_bary + v_obs v_bary / c; rest
-    lambda = lambda_bary / D(rv).  Without a barycentric correction the barycentric
-    frame is unavailable and ``rest`` takes ``rv_kms`` as measured by the observer.
-    Air wavelengths via :mod:`atlas.physics.airvac` (Morton 2000, ApJS 130, 403).
-    """
-
-    frame: str
-    medium: str
-    unit: str
-    rv_kms: float | None
-    bary_kms: float | None
-
-    @property
-    def k(self) -> float:
-        """lambda_display_vacuum / lambda_observed_vacuum."""
-        from atlas.physics import doppler
-
-        if self.frame == "observed":
-            return 1.0
-        k = doppler.factor(self.bary_kms) if self.bary_kms is not None else 1.0
-        if self.frame == "rest" and self.rv_kms is not None:
-            k /= doppler.factor(self.rv_kms)
-        return float(k)
-
-    @property
-    def scale(self) -> float:
-        """Å per displayed unit."""
-        return 10.0 if self.unit == "nm" else 1.0
-
-    def to_display_A(self, wave_obs_vac_A):
-        """Stored Å (vacuum, observed) to displayed Å (frame, medium)."""
-        from atlas.physics import airvac
-
-        w = np.asarray(wave_obs_vac_A, dtype=np.float64) * self.k
-        return airvac.vacuum_to_air_A(w) if self.medium == "air" else w
-
-    def to_display(self, wave_obs_vac_A):
-        """Stored Å (vacuum, observed) to displayed values (frame, medium, unit)."""
-        return self.to_display_A(wave_obs_vac_A) / self.scale
-
-    def from_display_A(self, wave_A):
-        """Displayed Å (frame, medium) back to stored Å (vacuum, observed)."""
-        from atlas.physics import airvac
-
-        w = np.asarray(wave_A, dtype=np.float64)
-        if self.medium == "air":
-            w = airvac.air_to_vacuum_A(w)
-        return w / self.k
-
-    def line_obs_A(self, rest_vac_A, telluric) -> np.ndarray:
-        """Where lines of rest vacuum Å lie in the stored (observed) frame.
-
-        Stellar lines move with the star's radial velocity; telluric lines are at rest
-        in the observer's frame.
-        """
-        from atlas.physics import doppler
-
-        rest = np.asarray(rest_vac_A, dtype=np.float64)
-        tell = np.broadcast_to(np.asarray(telluric, dtype=bool), rest.shape)
-        k_star = 1.0
-        if self.rv_kms is not None:
-            k_star = doppler.factor(self.rv_kms)
-        if self.bary_kms is not None:
-            k_star /= doppler.factor(self.bary_kms)
-        return np.where(tell, rest, rest * k_star)
-
-    def words(self) -> str:
-        """The axis words, e.g. ``wavelength (Å, air, barycentric frame)``."""
-        unit = "nm" if self.unit == "nm" else "Å"
-        return f"wavelength ({unit}, {self.medium}, {self.frame} frame)"
+#: The export's name for :class:`atlas.frames.Frame` (one implementation, shared with the app).
+FrameMap = Frame
 
 
 def frame_for(view: ExportView, record: Mapping) -> FrameMap:
@@ -305,7 +232,7 @@ def frame_for(view: ExportView, record: Mapping) -> FrameMap:
         raise InputError("frame", f"star {view.star!r} has no measured radial velocity, so "
                          "there is no rest frame; use frame observed"
                          + (" or barycentric" if bary is not None else ""))
-    return FrameMap(view.frame, view.medium, view.unit, rv, bary)
+    return Frame(view.frame, view.medium, rv, bary, view.unit)
 
 
 def _finite_or_none(x) -> float | None:

@@ -68,7 +68,7 @@ def test_note_control_characters_become_spaces():
 
 
 def _fm(frame="observed", medium="vacuum", unit="A", rv=None, bary=None):
-    return FrameMap(frame, medium, unit, rv, bary)
+    return FrameMap(frame, medium, rv, bary, unit)
 
 
 def _shift(wave_A, v_kms):
