@@ -12,6 +12,7 @@ from urllib.parse import parse_qsl, urlencode
 
 import panel as pn
 from bokeh.models import CustomJS
+from panel.io.resources import LOCAL_DIST
 
 from atlas.app.data import open_view_atlas
 from atlas.app.state import URL_PARAMS, ViewState, parse_query, to_query
@@ -20,10 +21,25 @@ from atlas.app.viewer import KEYS_JS, Viewer
 TITLE = "Striae atlas"
 
 
+def local_stylesheets(doc) -> None:
+    """Point Panel's stylesheets at this server, never at a CDN.
+
+    Panel takes the stylesheet base from the document's template variables, which are
+    set when the process renders the page.  With ``--procs`` > 1 the session's websocket
+    may reach another process, which then builds the document without them and Panel
+    falls back to its CDN.  Setting the local base first keeps every request on the
+    machine serving the atlas.
+    """
+    if doc is None or doc.session_context is None:
+        return
+    doc._template_variables.setdefault("dist_url", LOCAL_DIST)
+
+
 def create_session(atlas_path, query: str | None = None, keep: dict | None = None):
     """Build one session's view.  ``query`` (``?a=b&...``) defaults to the browser's URL;
     ``keep``, when given, receives the session's ``viewer`` (for tests and benchmarks)."""
     data = open_view_atlas(atlas_path)
+    local_stylesheets(pn.state.curdoc)
     loc = pn.state.location if pn.state.curdoc is not None else None
     if query is None:
         query = loc.search if loc is not None and loc.search else ""

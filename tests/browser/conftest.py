@@ -41,19 +41,18 @@ def fixture_mod():
     return _fixture_module()
 
 
-@pytest.fixture(scope="session")
-def server(tmp_path_factory, fixture_mod):
-    """Build a small atlas in tmp, serve it with ``striae serve``; yields the base URL."""
-    root = tmp_path_factory.mktemp("browser")
-    atlas_dir = fixture_mod.build_test_atlas(root)
+def _serve(root: Path, atlas_dir: Path, *extra: str):
+    """Start ``striae serve`` on a free loopback port (stdout and stderr to serve.log);
+    returns (process, url, log path, log file) once the page answers."""
     for sub in ("cache", "config", "data"):
-        (root / sub).mkdir()
+        (root / sub).mkdir(exist_ok=True)
     port = _free_port()
     env = dict(os.environ, HOME=str(root), XDG_CACHE_HOME=str(root / "cache"),
                XDG_CONFIG_HOME=str(root / "config"), XDG_DATA_HOME=str(root / "data"))
-    log = open(root / "serve.log", "w")
-    proc = subprocess.Popen([sys.executable, "-m", "atlas", "serve", str(atlas_dir), "--port", str(port)],
-                            stdout=log, stderr=subprocess.STDOUT, env=env)
+    log_path = root / "serve.log"
+    log = open(log_path, "w")
+    proc = subprocess.Popen([sys.executable, "-m", "atlas", "serve", str(atlas_dir), "--port", str(port),
+                             *extra], stdout=log, stderr=subprocess.STDOUT, env=env)
     url = f"http://127.0.0.1:{port}/"
     deadline = time.monotonic() + 150
     while True:
@@ -65,15 +64,43 @@ def server(tmp_path_factory, fixture_mod):
             pass
         if proc.poll() is not None or time.monotonic() > deadline:
             proc.kill()
-            pytest.fail(f"striae serve did not start: {(root / 'serve.log').read_text()[-2000:]}")
+            pytest.fail(f"striae serve did not start: {log_path.read_text()[-2000:]}")
         time.sleep(0.3)
-    yield {"url": url, "atlas": atlas_dir, "log": root / "serve.log"}
+    return proc, url, log_path, log
+
+
+def _stop(proc, log):
     proc.terminate()
     try:
         proc.wait(timeout=10)
     except subprocess.TimeoutExpired:
         proc.kill()
     log.close()
+
+
+@pytest.fixture(scope="session")
+def built_browser_atlas(tmp_path_factory, fixture_mod):
+    """The small test atlas (two stars), built once for every browser test."""
+    return fixture_mod.build_test_atlas(tmp_path_factory.mktemp("browser"))
+
+
+@pytest.fixture(scope="session")
+def server(tmp_path_factory, built_browser_atlas):
+    """Serve the test atlas with ``striae serve``; yields the base URL, the atlas and the
+    server's log (its stdout and stderr)."""
+    root = tmp_path_factory.mktemp("serve1")
+    proc, url, log_path, log = _serve(root, built_browser_atlas)
+    yield {"url": url, "atlas": built_browser_atlas, "log": log_path}
+    _stop(proc, log)
+
+
+@pytest.fixture(scope="module")
+def server_procs2(tmp_path_factory, built_browser_atlas):
+    """The same atlas served by two processes (``--procs 2``)."""
+    root = tmp_path_factory.mktemp("serve2")
+    proc, url, log_path, log = _serve(root, built_browser_atlas, "--procs", "2")
+    yield {"url": url, "atlas": built_browser_atlas, "log": log_path}
+    _stop(proc, log)
 
 
 @pytest.fixture(scope="session")
@@ -97,3 +124,40 @@ def viewer_page(viewer_browser):
     pg.on("pageerror", lambda e: pg.errors.append(str(e)))
     yield pg
     pg.close()
+
+
+@pytest.fixture(scope="module")
+def chromium(playwright):
+    """A plain (non-persistent) Chromium, for tests that need fresh contexts."""
+    b = playwright.chromium.launch(executable_path=CHROMIUM, headless=True, args=ARGS)
+    yield b
+    b.close()
+
+
+def open_view(page, url, query=""):
+    """Open the viewer and wait until the first strip holds data and Bokeh is idle."""
+    page.goto(url + query)
+    page.wait_for_function("() => window.Bokeh && Bokeh.documents.length > 0 && "
+                           "Bokeh.documents[0].get_model_by_name('spectrum-0') && "
+                           "Bokeh.documents[0].get_model_by_name('spectrum-0').data.x.length > 0",
+                           timeout=90_000)
+    page.wait_for_function("() => Bokeh.documents[0].is_idle", timeout=90_000)
+    page.wait_for_timeout(800)
+
+
+def wait_for(pred, timeout=30.0):
+    end = time.monotonic() + timeout
+    while time.monotonic() < end:
+        v = pred()
+        if v:
+            return v
+        time.sleep(0.2)
+    return pred()
+
+
+@pytest.fixture(scope="session")
+def view_tools():
+    """Helpers shared by the browser tests (the import mode keeps test modules apart)."""
+    import types
+
+    return types.SimpleNamespace(open_view=open_view, wait_for=wait_for)
