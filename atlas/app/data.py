@@ -85,6 +85,39 @@ class AtlasData:
         """
         return lod.window(self.dataset(star_id), int(strip), lo_A, hi_A, max_points, flux=flux)
 
+    def span(self, star_id: str, lo_A: float, hi_A: float, max_points: int,
+             flux: str = "norm") -> dict:
+        """Points between lo_A and hi_A (vacuum observed Å) across strips, at most
+        ``max_points`` in all: each strip gives its own stretch (overlaps cut at their
+        middles), a NaN point breaks the line between strips.  ``wavelength`` float64,
+        ``flux`` float32, ``level`` the coarsest level-of-detail level used."""
+        lo_b, hi_b = self.strip_bounds(star_id)
+        ok = np.isfinite(lo_b) & np.isfinite(hi_b)
+        own_lo, own_hi = lo_b.copy(), hi_b.copy()
+        idx = np.nonzero(ok)[0]
+        for a, b in zip(idx[:-1], idx[1:], strict=True):  # overlaps cut at their middles
+            if hi_b[a] > lo_b[b]:
+                cut = 0.5 * (hi_b[a] + lo_b[b])
+                own_hi[a] = own_lo[b] = cut
+        parts = [(int(i), max(lo_A, own_lo[i]), min(hi_A, own_hi[i])) for i in idx
+                 if own_hi[i] > lo_A and own_lo[i] < hi_A]
+        total = max(hi_A - lo_A, 1e-9)
+        waves, ys, level = [], [], 0
+        for i, a, b in parts:
+            if b <= a:
+                continue
+            n = max(4, int(max_points * (b - a) / total) - 1)
+            w = self.window(star_id, i, a, b, n, flux=flux)
+            if waves and len(w["wavelength"]):
+                waves.append(np.array([0.5 * (float(waves[-1][-1]) + float(w["wavelength"][0]))]))
+                ys.append(np.array([np.nan], np.float32))
+            waves.append(np.asarray(w["wavelength"], np.float64))
+            ys.append(np.asarray(w["flux"], np.float32))
+            level = max(level, int(w.get("level", 0)))
+        if not waves:
+            return {"wavelength": np.zeros(0), "flux": np.zeros(0, np.float32), "level": 0}
+        return {"wavelength": np.concatenate(waves), "flux": np.concatenate(ys), "level": level}
+
     def overview(self, star_id: str, n_bins: int = 1500, flux: str = "norm") -> dict:
         """The whole spectrum as ``n_bins`` min/max pairs (vacuum observed Å), from the
         coarsest level-of-detail group; cached per process."""

@@ -27,6 +27,7 @@ from bokeh.models import (
 )
 from bokeh.plotting import figure
 
+from atlas.app import compare as cmpmod
 from atlas.app import markers
 from atlas.app.data import AtlasData, line_list
 from atlas.app.frames import Frame, scale
@@ -47,6 +48,9 @@ FOCUS = "#d9a400"
 FEATURE_ID = "#5b3f8c"
 FEATURE_UN = "#c0304a"
 OVERVIEW = "#7a869a"
+SECOND = "#8a4f9e"  # the comparison star
+GROW = "#2f7d4f"  # a line deeper in the comparison star
+FADE = "#c2562e"  # a line shallower in the comparison star
 
 CSS = f"""
 :host {{ --striae-ink: {INK}; }}
@@ -262,6 +266,8 @@ class Viewer:
         self._yrange: dict = {}
         self._busy = False
         self._width_pending = False
+        self._cmp_window = None
+        self._cmp_key = None
         self.meta = ColumnDataSource({"scale": [1.0], "ref_A": [0.0], "ref_name": [""],
                                       "frame": ["observed"]})
         self.readout = Div(text="move the cursor over a strip for wavelength, velocity and flux",
@@ -271,6 +277,7 @@ class Viewer:
         self.bridge.on_change("tags", lambda attr, old, new: self.key(new[0] if new else ""))
         self._build_widgets()
         self._build_overview()
+        self._build_compare()
         self.slots: list[Slot] = []
         self.strips = pn.Column(sizing_mode="stretch_width")
         self._ensure_slots(state.per_page)
@@ -285,6 +292,10 @@ class Viewer:
         self.w_star = pn.widgets.Select(label="Star", options=names, value=st.star or None,
                                         sizing_mode="stretch_width")
         self.w_star.param.watch(lambda e: self.choose_star(e.new), "value")
+        cmp_names = {"(none)": ""} | names
+        self.w_compare = pn.widgets.Select(label="Compare with", options=cmp_names,
+                                           value=st.compare or "", sizing_mode="stretch_width")
+        self.w_compare.param.watch(lambda e: self.choose_compare(e.new), "value")
         self.w_jump = pn.widgets.TextInput(label="Go to (wavelength or line)",
                                            placeholder="6563 · 656.3 nm · Na I 5890 · H I",
                                            sizing_mode="stretch_width")
@@ -353,6 +364,58 @@ class Viewer:
         fig.on_event(Tap, self.on_overview_tap)
         self.overview_fig = fig
 
+    def _build_compare(self):
+        """Two stars one above the other on one linked wavelength axis, and their difference."""
+        xr_ = Range1d(0, 1)
+        self.cmp_a = ColumnDataSource({"x": np.zeros(0, np.float32), "y": np.zeros(0, np.float32)},
+                                      name="compare-a")
+        self.cmp_b = ColumnDataSource({"x": np.zeros(0, np.float32), "y": np.zeros(0, np.float32)},
+                                      name="compare-b")
+        self.cmp_d = ColumnDataSource({"x": np.zeros(0, np.float32), "y": np.zeros(0, np.float32)},
+                                      name="compare-diff")
+        self.cmp_l = ColumnDataSource({k: [] for k in ("x", "species", "da", "db", "dd", "colour",
+                                                       "marker", "size", "label")}, name="compare-lines")
+        figs = []
+        for name, src, colour, h in (("compare-fig-a", self.cmp_a, SPECTRUM, 120),
+                                     ("compare-fig-b", self.cmp_b, SECOND, 120),
+                                     ("compare-fig-diff", self.cmp_d, INK, 120)):
+            fig = figure(height=h, sizing_mode="stretch_width", output_backend="webgl", x_range=xr_,
+                         y_range=Range1d(0, 1.2) if name != "compare-fig-diff" else Range1d(-0.5, 0.5),
+                         tools="xpan,xbox_zoom,reset", active_drag="xpan", toolbar_location="right",
+                         min_border_left=46, min_border_right=6, min_border_top=18, min_border_bottom=18,
+                         name=name, background_fill_color=PAPER, border_fill_color="white")
+            fig.toolbar.logo = None
+            wheel = WheelZoomTool(dimensions="width", modifiers={"ctrl": True})
+            fig.add_tools(wheel)
+            fig.toolbar.active_scroll = wheel
+            fig.grid.grid_line_color = RULE
+            fig.title.text_font_size = "11px"
+            fig.xaxis.major_label_text_font_size = "10px"
+            fig.yaxis.major_label_text_font_size = "9px"
+            fig.yaxis.ticker.desired_num_ticks = 3
+            if name != "compare-fig-diff":
+                fig.vspan(x="x", source=self.cmp_l, line_color="colour", line_alpha=0.5, line_width=1)
+            fig.line("x", "y", source=src, line_color=colour, line_width=1.1)
+            fig.on_event(RangesUpdate, self.on_compare_range)
+            fig.on_change("inner_width", lambda attr, old, new: self.on_width())
+            figs.append(fig)
+        d = figs[2]
+        d.hspan(y=[0.0], line_color=OVERVIEW, line_dash="dashed", line_width=1)
+        sc = d.scatter("x", "dd", source=self.cmp_l, marker="marker", size="size", fill_color="colour",
+                       line_color=None, fill_alpha=0.9)
+        d.add_layout(LabelSet(x="x", y="dd", text="label", source=self.cmp_l, text_font_size="9px",
+                              text_color="colour", x_offset=4, y_offset=2))
+        d.add_tools(HoverTool(renderers=[sc], tooltips=[
+            ("line", "@species"), ("depth, first star", "@da{0.000}"),
+            ("depth, second star", "@db{0.000}"), ("change", "@dd{+0.000}")]))
+        self.cmp_figs = figs
+        self.cmp_title = pn.pane.HTML("", margin=(6, 4, 0, 4), styles={"font-size": "12.5px", "color": INK},
+                                      name="compare-title")
+        self.cmp_box = pn.Column(self.cmp_title, *[pn.pane.Bokeh(f, sizing_mode="stretch_width",
+                                                                 margin=(0, 0, 2, 0)) for f in figs],
+                                 sizing_mode="stretch_width", visible=False, margin=(0, 0, 6, 0),
+                                 styles={"border": f"1px solid {RULE}", "border-radius": "4px"})
+
     def _build_layout(self):
         nav = pn.Row(self.w_first, self.w_prev_page, self.w_prev_strip, self.w_next_strip,
                      self.w_next_page, self.w_last, self.page_label, pn.layout.HSpacer(), self.w_whole, self.w_copy,
@@ -361,7 +424,7 @@ class Viewer:
             nav, self.notice,
             pn.pane.Bokeh(self.readout, sizing_mode="stretch_width", margin=(0, 4)),
             pn.pane.Bokeh(self.overview_fig, sizing_mode="stretch_width", margin=(0, 0, 4, 0)),
-            self.strips, pn.pane.Bokeh(self.bridge, visible=False),
+            self.cmp_box, self.strips, pn.pane.Bokeh(self.bridge, visible=False),
             sizing_mode="stretch_width", margin=(0, 8),
         )
 
@@ -372,7 +435,7 @@ class Viewer:
             pn.pane.HTML(f'<div style="font:600 22px Georgia,serif;color:{INK}">Striae</div>'
                          f'<div style="font-size:11px;color:#5a6275">{html.escape(str(self.data.path))}</div>',
                          margin=(6, 10)),
-            self.w_star, self.card, self.w_jump,
+            self.w_star, self.card, self.w_compare, self.w_jump,
             label("Frame"), self.w_frame, label("Wavelengths in"), self.w_medium, self.w_unit,
             label("Flux"), self.w_flux, self.w_lines, self.w_strength, self.w_per_page,
             pn.pane.HTML('<div style="font-size:11px;color:#5a6275">Keys: ↓/→ next strip, ↑/← previous,'
@@ -436,6 +499,32 @@ class Viewer:
     def choose_star(self, star_id):
         if star_id and star_id != self.state.star:
             self.state.param.update(star=star_id, page=1, lo=None, hi=None, compare="")
+
+    def choose_compare(self, star_id):
+        """Show a second star; the rest frame (each star through its own RV) by default."""
+        star_id = star_id or ""
+        if star_id == self.state.compare:
+            return
+        if star_id and self.state.frame == "observed":
+            self.state.param.update(compare=star_id, frame="rest")
+        else:
+            self.state.param.update(compare=star_id)
+
+    def on_compare_range(self, ev):
+        """End of a pan or zoom in the comparison (the three plots share one x range)."""
+        if not self.state.compare or ev.x0 is None or ev.x1 is None:
+            return
+        sc = scale(self.state.unit)
+        x0, x1 = float(ev.x0) * sc, float(ev.x1) * sc
+        if not (math.isfinite(x0) and math.isfinite(x1)) or x1 - x0 < 1e-3:
+            return
+        cur = (self.state.lo, self.state.hi)
+        if cur[0] is not None and abs(cur[0] - x0) < 1e-6 and abs(cur[1] - x1) < 1e-6:
+            return  # the same gesture reported by a linked plot
+        if self._cmp_window is not None and abs(self._cmp_window[0] - x0) < 1e-6 \
+                and abs(self._cmp_window[1] - x1) < 1e-6:
+            return
+        self.state.param.update(lo=x0, hi=x1)
 
     def key(self, action: str):
         """Step pages and strips (buttons and keys)."""
@@ -628,6 +717,8 @@ class Viewer:
             self.w_lines.value = [s for s in st.lines if s in self.w_lines.options]
         if "star" in changed and self.w_star.value != st.star:
             self.w_star.value = st.star
+        if self.w_compare.value != st.compare:
+            self.w_compare.value = st.compare
         self.refresh(changed)
 
     def frame_fallback(self) -> str:
@@ -651,6 +742,7 @@ class Viewer:
         with pn.io.hold():
             self.update_strips()
             self.update_overview()
+            self.update_compare()
             self.update_side()
             self.refresh_notice()
         self._notices = []
@@ -829,3 +921,116 @@ class Viewer:
         else:
             self.ov_zoom.visible = False
 
+
+    # ----------------------------------------------------------------- compare
+    def compare_frame(self) -> Frame:
+        rec = self.data.record(self.state.compare)
+        return Frame(self.state.frame, self.state.medium, rec.get("rv_kms"), rec.get("barycentric_kms"))
+
+    def compare_window(self) -> tuple[float, float] | None:
+        """The stretch compared (displayed Å): the zoom window, else the page's first strip."""
+        st = self.state
+        if st.lo is not None and st.hi is not None:
+            return st.lo, st.hi
+        strips = self.page_strips()
+        return self.strip_display_range(strips[0], self.frame()) if strips else None
+
+    def update_compare(self):
+        """Draw the comparison: both stars' normalised flux, their difference, line changes."""
+        st = self.state
+        if not st.compare or st.compare not in self.data.records:
+            if self.cmp_box.visible:
+                self.cmp_box.visible = False
+            self._cmp_key = None
+            return
+        win = self.compare_window()
+        if win is None:
+            return
+        lo, hi = win
+        fa, fb = self.frame(), self.compare_frame()
+        sc = scale(st.unit)
+        width = plot_width_px(self.cmp_figs[0])
+        key = (st.star, st.compare, round(lo, 6), round(hi, 6), fa, fb, st.unit, width,
+               tuple(st.lines), st.strength)
+        self.cmp_box.visible = True
+        if key == self._cmp_key:
+            return
+        self._cmp_key = key
+        self._cmp_window = (lo, hi)
+        pts = 2 * width
+        sa = fa.from_display_A(np.array([lo, hi]))
+        sb = fb.from_display_A(np.array([lo, hi]))
+        wa = self.data.span(st.star, float(sa[0]), float(sa[1]), pts)
+        wb = self.data.span(st.compare, float(sb[0]), float(sb[1]), pts)
+        xa, ya = fa.to_display_A(wa["wavelength"]), np.asarray(wa["flux"], np.float64)
+        xb, yb = fb.to_display_A(wb["wavelength"]), np.asarray(wb["flux"], np.float64)
+        self.cmp_a.data = {"x": (xa / sc).astype(np.float32), "y": ya.astype(np.float32)}
+        self.cmp_b.data = {"x": (xb / sc).astype(np.float32), "y": yb.astype(np.float32)}
+        grid = cmpmod.common_grid(xa, ya, xb, yb, width)
+        self.cmp_d.data = {"x": grid["x"] / np.float32(sc), "y": grid["diff"]}
+        self.cmp_l.data = self._compare_lines(lo, hi, fa, fb, xa, ya, xb, yb, sc)
+        for f in self.cmp_figs:
+            f.x_range.update(start=lo / sc, end=hi / sc)
+        ys = np.concatenate([ya[np.isfinite(ya)], yb[np.isfinite(yb)]])
+        if len(ys):
+            a, b = min(float(np.min(ys)), 0.0) if float(np.min(ys)) < 0.2 else float(np.min(ys)), \
+                max(float(np.max(ys)), 1.08)
+            for f in self.cmp_figs[:2]:
+                f.y_range.update(start=a - 0.05 * (b - a), end=b + 0.05 * (b - a))
+        dd = np.concatenate([grid["diff"][np.isfinite(grid["diff"])],
+                             np.asarray(self.cmp_l.data["dd"], np.float64)])
+        m = max(0.05, float(np.max(np.abs(dd)))) * 1.15 if len(dd) else 0.5
+        self.cmp_figs[2].y_range.update(start=-m, end=m)
+        na = html.escape(str(self.record().get("name") or st.star))
+        nb = html.escape(str(self.data.record(st.compare).get("name") or st.compare))
+        n_grow = int(np.sum(np.asarray(self.cmp_l.data["dd"]) > 0))
+        n_fade = len(self.cmp_l.data["dd"]) - n_grow
+        unit = "Å" if st.unit == "A" else "nm"
+        self.cmp_figs[0].title.text = f"first star: {self.record().get('name') or st.star} (normalised flux)"
+        self.cmp_figs[1].title.text = (f"second star: {self.data.record(st.compare).get('name') or st.compare}"
+                                       " (normalised flux)")
+        self.cmp_figs[2].title.text = ("second − first: flux difference (line); line depth change "
+                                       "(▲ deeper in the second star, ▼ shallower)")
+        self.cmp_title.object = (
+            f"<b>Comparing</b> {na} with {nb} · {lo / sc:.3f}–{hi / sc:.3f} {unit} ({st.medium}, "
+            f"{st.frame} frame{', each star through its own RV' if st.frame == 'rest' else ''}) · "
+            f'<span style="color:{GROW}">▲ {n_grow} lines deeper</span> · '
+            f'<span style="color:{FADE}">▼ {n_fade} shallower</span> in the second star')
+
+    def _compare_lines(self, lo, hi, fa, fb, xa, ya, xb, yb, sc) -> dict:
+        """Stellar lines in the window whose depth differs between the two stars."""
+        cols = {k: [] for k in ("x", "species", "da", "db", "dd", "colour", "marker", "size", "label")}
+        lines = self._lines
+        if lines is None or len(lines) == 0:
+            return cols
+        st = self.state
+        tell = lines["telluric"].astype(str).str.lower().isin(("true", "1")).to_numpy()
+        vac = lines["vacuum_A"].to_numpy(dtype=float)
+        pa = fa.rest_vac_to_display_A(vac, tell)
+        sel = (~tell) & (pa >= lo) & (pa <= hi) & (lines["strength"].to_numpy() <= st.strength)
+        if st.lines:
+            sel &= lines["species"].isin(list(st.lines)).to_numpy()
+        idx = np.nonzero(sel)[0]
+        if len(idx) == 0:
+            return cols
+        idx = idx[np.argsort(lines["strength"].to_numpy()[idx], kind="stable")][:120]
+        pb = fb.rest_vac_to_display_A(vac[idx], False)
+        spacing = (hi - lo) / max(len(xa), 2)
+        da = cmpmod.line_depths(xa, ya, pa[idx], cmpmod.depth_half_width(pa[idx], spacing))
+        db = cmpmod.line_depths(xb, yb, pb, cmpmod.depth_half_width(pb, spacing))
+        ch = cmpmod.change(da, db)
+        keep = ch != 0
+        if not keep.any():
+            return cols
+        dd = (db - da)[keep]
+        order = np.argsort(-np.abs(dd))
+        labelled = set(order[:10].tolist())
+        sp = lines["species"].to_numpy()[idx][keep]
+        cols["x"] = (pa[idx][keep] / sc).tolist()
+        cols["species"] = [str(s) for s in sp]
+        cols["da"], cols["db"], cols["dd"] = da[keep].tolist(), db[keep].tolist(), dd.tolist()
+        cols["colour"] = [GROW if v > 0 else FADE for v in dd]
+        cols["marker"] = ["triangle" if v > 0 else "inverted_triangle" for v in dd]
+        cols["size"] = [float(min(18.0, 6.0 + 40.0 * abs(v))) for v in dd]
+        cols["label"] = [str(s) if i in labelled else "" for i, s in enumerate(sp)]
+        return cols
