@@ -141,7 +141,7 @@ def prepare(ds: xr.Dataset, options: BuildOptions):
         stops = np.cumsum(lengths)
         segments = list(zip((stops - lengths).tolist(), stops.tolist(), strict=True))
         # Each order keeps its own blaze: its continuum is fitted on its own.
-        seq["continuum"] = fit_continuum(seq["wavelength"], seq["flux"], seq["mask"], c, segments)
+        seq["continuum"] = fit_continuum(seq["wavelength"], seq["flux"], seq["mask"], c, segments).astype(np.float32)
         if not options.merge_orders and options.equal_A is None and options.strip_kms is None:
             plan = plan_orders(lengths, [p[0][0] for p in parts], [p[0][-1] for p in parts])
             if dropped:
@@ -161,7 +161,7 @@ def prepare(ds: xr.Dataset, options: BuildOptions):
         if w.size == 0:
             raise InputError(ds.attrs.get("source_path", "spectrum"), "no sample has a finite wavelength")
         seq = {"wavelength": w, "flux": f, "mask": m, "uncertainty": u}
-        seq["continuum"] = fit_continuum(w, f, m, c)
+        seq["continuum"] = fit_continuum(w, f, m, c).astype(np.float32)
     if dropped:
         notes.append(f"{dropped} samples without a finite wavelength left out")
     wave = seq["wavelength"]
@@ -180,7 +180,8 @@ def star_arrays(seq: dict, plan: StripPlan):
     flux = gather(seq["flux"], plan, np.nan, np.float32)
     cont = gather(seq["continuum"], plan, np.nan, np.float32)
     with np.errstate(divide="ignore", invalid="ignore"):
-        norm = np.where(cont > 0, flux / cont, np.float32(np.nan)).astype(np.float32)
+        norm = flux / cont
+    norm[~(cont > 0)] = np.nan
     mask = gather(seq["mask"], plan, True, bool)
     if seq.get("uncertainty") is not None:
         unc = gather(seq["uncertainty"], plan, np.nan, np.float32)

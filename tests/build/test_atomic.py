@@ -57,16 +57,7 @@ def test_killed_build_leaves_the_old_atlas_as_it_was(tmp_path):
     _readable(atlas)
 
     env = dict(os.environ)
-    # The build runs as the striae command in its own process, with the numpy Planck
-    # function of conftest.py (same values, faster) so the kills land within seconds.
-    code = (
-        "import sys, importlib.util as iu; spec = iu.spec_from_file_location('c', sys.argv[1]);"
-        " m = iu.module_from_spec(spec); spec.loader.exec_module(m);"
-        " from atlas.physics import planck; planck.b_lambda = m.fast_b_lambda;"
-        " from atlas import cli; sys.exit(cli.main(sys.argv[2:]))"
-    )
-    conf = str(Path(__file__).with_name("conftest.py"))
-    cmd = [sys.executable, "-c", code, conf, "build", *map(str, files), "--out", str(atlas), "--force", "--quiet"]
+    cmd = [sys.executable, "-m", "atlas", "build", *map(str, files), "--out", str(atlas), "--force", "--quiet"]
     # Moments: while starting up; as the first new store appears; as the second appears
     # (the first complete, the second being written).
     moments = [("start", lambda: False, 1.0), ("first store", lambda: len(_new_stores(atlas, old_stores)) >= 1, None),
