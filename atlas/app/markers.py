@@ -122,3 +122,28 @@ def find_line(lines: pd.DataFrame | None, species: str, wave_A: float | None, me
     if d.min() > 5.0:
         return None
     return sel.iloc[int(np.argmin(d))]
+
+
+_MARK = re.compile(
+    r"^\s*(?P<a>\d+(?:\.\d*)?)\s*(?:-|–|—|\.\.|to)\s*(?P<b>\d+(?:\.\d*)?)\s*"
+    r"(?P<u>nm|Å|A|angstrom)?(?:\s+(?P<note>.*?))?\s*$",
+    re.IGNORECASE | re.DOTALL,
+)
+
+
+def parse_mark(text: str, unit: str = "A") -> tuple[float, float, str]:
+    """A typed mark like ``6550-6575 Hα wing`` or ``655.0–657.5 nm core``: (lo_A, hi_A, note).
+
+    Numbers are in the axis unit (``unit``) unless ``nm`` or ``Å`` follows them; the rest
+    is the note, kept as plain text.  Raises ValueError for anything else.
+    """
+    m = _MARK.match(text or "")
+    if not m:
+        raise ValueError(f"{(text or '')[:40]!r} is not a range like '6550-6575 note'")
+    a, b = float(m.group("a")), float(m.group("b"))
+    u = (m.group("u") or "").lower()
+    k = 10.0 if u == "nm" or (u == "" and unit == "nm") else 1.0
+    a, b = sorted((a * k, b * k))
+    if not b > a:
+        raise ValueError("a mark needs two different ends")
+    return a, b, (m.group("note") or "").strip()

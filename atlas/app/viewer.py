@@ -17,6 +17,7 @@ import panel as pn
 from bokeh.events import RangesUpdate, Reset, Tap
 from bokeh.models import (
     BoxAnnotation,
+    BoxEditTool,
     ColumnDataSource,
     CustomJS,
     Div,
@@ -31,7 +32,15 @@ from atlas.app import compare as cmpmod
 from atlas.app import markers
 from atlas.app.data import AtlasData, line_list
 from atlas.app.frames import Frame, scale
-from atlas.app.state import DEFAULTS, PER_PAGE_MAX, URL_PARAMS, ViewState, parse_query
+from atlas.app.state import (
+    DEFAULTS,
+    MAX_MARKS,
+    PER_PAGE_MAX,
+    URL_PARAMS,
+    ViewState,
+    parse_marks,
+    parse_query,
+)
 
 C_KMS = 299_792.458  # CODATA exact speed of light
 DEFAULT_PX = 1100  # plot width assumed before the browser reports it
@@ -206,7 +215,8 @@ class Slot:
                                     name=f"spectrum-{index}")
         self.msrc = ColumnDataSource(markers._empty() | {"colour": []}, name=f"markers-{index}")
         self.fsrc = ColumnDataSource({"x": [], "y": [], "species": [], "rest": [], "ew": [], "colour": []})
-        self.ksrc = ColumnDataSource({"x0": [], "x1": [], "note": []})
+        self.ksrc = ColumnDataSource({"x0": [], "x1": [], "note": [], "i": []}, name=f"marks-{index}")
+        self.mark_idx: list[int] = []
         self.conv = ColumnDataSource({"d": [0.0, 1.0], "vac": [0.0, 1.0], "air": [0.0, 1.0]})
         fig = figure(
             height=118, sizing_mode="stretch_width", output_backend="webgl",
@@ -227,7 +237,16 @@ class Slot:
         fig.yaxis.ticker.desired_num_ticks = 3
         fig.outline_line_width = 2
         fig.outline_line_color = None
-        fig.vstrip(x0="x0", x1="x1", source=self.ksrc, fill_color=FOCUS, fill_alpha=0.12, line_alpha=0)
+        band = fig.vstrip(x0="x0", x1="x1", source=self.ksrc, fill_color=FOCUS, fill_alpha=0.22,
+                          line_color=FOCUS, line_alpha=0.6, line_width=1)
+        # Marks: pick the mark tool, Shift + drag to add, drag to move, click + Backspace to delete.
+        fig.add_tools(BoxEditTool(renderers=[band], empty_value=-1, description="mark a range "
+                                  "(Shift + drag adds; click and Backspace deletes)"))
+        fig.add_layout(LabelSet(x="x0", y=-4, y_units="screen", text="note", source=self.ksrc,
+                                text_font_size="10px", text_color="#6b4e00", x_offset=3,
+                                text_baseline="bottom", background_fill_color="white",
+                                background_fill_alpha=0.6))
+        self.ksrc.on_change("data", lambda attr, old, new: viewer.on_marks_edited(self, new))
         mr = fig.vspan(x="x", source=self.msrc, line_color="colour", line_alpha=0.55, line_width=1)
         fig.add_layout(LabelSet(
             x="x", y=4, y_units="screen", text="label", source=self.msrc, text_font_size="9px",
@@ -267,6 +286,7 @@ class Viewer:
         self._busy = False
         self._width_pending = False
         self._cmp_window = None
+        self._drawing = False
         self._cmp_key = None
         self.meta = ColumnDataSource({"scale": [1.0], "ref_A": [0.0], "ref_name": [""],
                                       "frame": ["observed"]})
@@ -325,6 +345,19 @@ class Viewer:
             if (navigator.clipboard && window.isSecureContext) {
               navigator.clipboard.writeText(url).catch(ask);
             } else { ask(); }""")
+        self.w_mark_add = pn.widgets.TextInput(label="Mark a range (from–to, then a note)",
+                                               placeholder="6550-6575 Hα wing", sizing_mode="stretch_width",
+                                               css_classes=["striae-mark-add"])
+        self.w_mark_add.param.watch(lambda e: self.add_mark_text(e.new), "value")
+        self.w_mark_pick = pn.widgets.Select(label="Marks", options={"(no marks)": -1}, value=-1,
+                                             sizing_mode="stretch_width")
+        self.w_mark_pick.param.watch(lambda e: self._show_mark_note(), "value")
+        self.w_mark_note = pn.widgets.TextInput(label="Note of the chosen mark", max_length=80,
+                                                sizing_mode="stretch_width")
+        self.w_mark_save = pn.widgets.Button(label="save note", width=90, margin=(4, 4))
+        self.w_mark_del = pn.widgets.Button(label="delete mark", width=90, margin=(4, 4))
+        self.w_mark_save.on_click(lambda e: self.edit_mark(self.w_mark_pick.value, note=self.w_mark_note.value))
+        self.w_mark_del.on_click(lambda e: self.delete_mark(self.w_mark_pick.value))
         b = dict(width=62, color="default", margin=(4, 2))
         self.w_first = pn.widgets.Button(label="⇤ first", description="first page (Home)", **b)
         self.w_prev_page = pn.widgets.Button(label="◀ page", description="previous page (PageUp)", **b)
@@ -438,6 +471,7 @@ class Viewer:
             self.w_star, self.card, self.w_compare, self.w_jump,
             label("Frame"), self.w_frame, label("Wavelengths in"), self.w_medium, self.w_unit,
             label("Flux"), self.w_flux, self.w_lines, self.w_strength, self.w_per_page,
+            self.w_mark_add, self.w_mark_pick, self.w_mark_note, pn.Row(self.w_mark_save, self.w_mark_del),
             pn.pane.HTML('<div style="font-size:11px;color:#5a6275">Keys: ↓/→ next strip, ↑/← previous,'
                          ' PageDown/PageUp pages, Home/End. Drag to pan, box tool or'
                          ' Ctrl + wheel to zoom; the reset tool shows the whole strip again.</div>', margin=(6, 10)),
@@ -499,6 +533,111 @@ class Viewer:
     def choose_star(self, star_id):
         if star_id and star_id != self.state.star:
             self.state.param.update(star=star_id, page=1, lo=None, hi=None, compare="")
+
+    def add_mark_text(self, text: str):
+        """Add a typed mark such as ``6550-6575 Hα wing`` (axis unit unless one is given)."""
+        if not text or not text.strip():
+            return
+        try:
+            a, b, note = markers.parse_mark(text, self.state.unit)
+        except ValueError as exc:
+            self.note(f"mark: {exc}")
+            self.refresh_notice()
+            return
+        self.add_mark(a, b, note)
+        self.w_mark_add.value = ""
+
+    def add_mark(self, lo_A: float, hi_A: float, note: str = ""):
+        """Add a marked range (displayed Å), cleaned by the URL rules."""
+        marks = [list(m) for m in self.state.marks]
+        if len(marks) >= MAX_MARKS:
+            self.note(f"mark: at most {MAX_MARKS} marks")
+            self.refresh_notice()
+            return
+        try:
+            new = parse_marks([[lo_A, hi_A, note]])
+        except ValueError as exc:
+            self.note(str(exc))
+            self.refresh_notice()
+            return
+        self.state.param.update(marks=marks + new)
+        self.w_mark_pick.value = len(self.state.marks) - 1
+
+    def edit_mark(self, k, note: str | None = None, lo_A=None, hi_A=None):
+        """Change one mark's note (plain text) or range."""
+        marks = [list(m) for m in self.state.marks]
+        if k is None or not (0 <= int(k) < len(marks)):
+            return
+        k = int(k)
+        m = marks[k]
+        cand = [lo_A if lo_A is not None else m[0], hi_A if hi_A is not None else m[1],
+                note if note is not None else m[2]]
+        try:
+            marks[k] = parse_marks([cand])[0]
+        except ValueError as exc:
+            self.note(str(exc))
+            self.refresh_notice()
+            return
+        self.state.param.update(marks=marks)
+
+    def delete_mark(self, k):
+        marks = [list(m) for m in self.state.marks]
+        if k is None or not (0 <= int(k) < len(marks)):
+            return
+        del marks[int(k)]
+        self.state.param.update(marks=marks)
+
+    def on_marks_edited(self, slot: Slot, new: dict):
+        """Marks moved, added (Shift + drag) or deleted with the mark tool in one strip."""
+        if self._drawing:
+            return
+        st, sc = self.state, scale(self.state.unit)
+        marks = [list(m) for m in st.marks]
+        seen, added = set(), []
+        for a, b, i in zip(new.get("x0", []), new.get("x1", []), new.get("i", []), strict=False):
+            try:
+                a, b = sorted((float(a) * sc, float(b) * sc))
+                i = int(i) if i is not None and math.isfinite(float(i)) else -1
+            except (TypeError, ValueError):
+                continue
+            if not (math.isfinite(a) and math.isfinite(b)) or b - a < 1e-3:
+                continue
+            if i in slot.mark_idx and i not in seen:
+                marks[i][0:2] = [a, b]
+                seen.add(i)
+            else:
+                added.append([a, b, ""])
+        gone = set(slot.mark_idx) - seen
+        out = [m for k, m in enumerate(marks) if k not in gone] + added
+        try:
+            out = parse_marks(out[:MAX_MARKS])
+        except ValueError as exc:
+            self.note(str(exc))
+            out = [list(m) for m in st.marks]
+        if out != [list(m) for m in st.marks]:
+            st.param.update(marks=out)
+        else:  # put the drawing back as it was
+            slot.drawn = None
+            self.update_strips()
+
+    def _show_mark_note(self):
+        k = self.w_mark_pick.value
+        if k is not None and 0 <= int(k) < len(self.state.marks):
+            self.w_mark_note.value = self.state.marks[int(k)][2]
+        else:
+            self.w_mark_note.value = ""
+
+    def update_marks_widgets(self):
+        st = self.state
+        sc = scale(st.unit)
+        unit = "Å" if st.unit == "A" else "nm"
+        opts = {f"{k + 1}. {m[0] / sc:.3f}–{m[1] / sc:.3f} {unit}: {m[2] or '(no note)'}": k
+                for k, m in enumerate(st.marks)} or {"(no marks)": -1}
+        cur = self.w_mark_pick.value
+        self.w_mark_pick.options = opts
+        vals = list(opts.values())
+        self.w_mark_pick.value = cur if cur in vals else vals[-1]
+        self._show_mark_note()
 
     def choose_compare(self, star_id):
         """Show a second star; the rest frame (each star through its own RV) by default."""
@@ -705,6 +844,19 @@ class Viewer:
                 st.param.update(lo=lo, hi=hi)
             finally:
                 self._busy = False
+        if changed & {"frame", "medium"} and st.marks:
+            rec = self.record()
+            before = Frame(old.get("frame", st.frame), old.get("medium", st.medium),
+                           rec.get("rv_kms"), rec.get("barycentric_kms"))
+            moved = []
+            for a, b, note in st.marks:
+                x = self.frame().to_display_A(before.from_display_A(np.array([a, b])))
+                moved.append([round(float(x[0]), 6), round(float(x[1]), 6), note])
+            self._busy = True
+            try:
+                st.param.update(marks=moved)
+            finally:
+                self._busy = False
         if "per_page" in changed:
             focus = self.zoom_strip()
             first = (old.get("page", st.page) - 1) * old["per_page"] if focus is None else focus
@@ -743,6 +895,7 @@ class Viewer:
             self.update_strips()
             self.update_overview()
             self.update_compare()
+            self.update_marks_widgets()
             self.update_side()
             self.refresh_notice()
         self._notices = []
@@ -880,9 +1033,14 @@ class Viewer:
                 "colour": [FEATURE_ID if s else FEATURE_UN for s in sp],
             }
         slot.fsrc.data = fd
-        marks = [mk for mk in st.marks if mk[1] >= lo and mk[0] <= hi]
-        slot.ksrc.data = {"x0": [mk[0] / sc for mk in marks], "x1": [mk[1] / sc for mk in marks],
-                          "note": [mk[2] for mk in marks]}
+        idx = [k for k, mk in enumerate(st.marks) if mk[1] >= lo and mk[0] <= hi]
+        slot.mark_idx = idx
+        self._drawing = True
+        try:
+            slot.ksrc.data = {"x0": [st.marks[k][0] / sc for k in idx], "x1": [st.marks[k][1] / sc for k in idx],
+                              "note": [st.marks[k][2] for k in idx], "i": [float(k) for k in idx]}
+        finally:
+            self._drawing = False
         d = np.linspace(s0 - 1.0, s1 + 1.0, 33)
         vac = Frame(st.frame, "vacuum", fr.rv_kms, fr.bary_kms).to_display_A(fr.from_display_A(d))
         air = Frame(st.frame, "air", fr.rv_kms, fr.bary_kms).to_display_A(fr.from_display_A(d))
