@@ -126,6 +126,32 @@ window.addEventListener('keydown', window.__striae_keys);
 """
 
 
+COPY_JS = """
+const url = window.location.href;
+field.value = url;
+field.visible = true;
+function find(root) {
+  for (const e of root.querySelectorAll('*')) {
+    if (e.tagName === 'INPUT' && e.placeholder === 'link to this view') { return e; }
+    if (e.shadowRoot) { const f = find(e.shadowRoot); if (f) { return f; } }
+  }
+  return null;
+}
+function pick() {
+  const el = find(document);
+  if (!el) { return false; }
+  el.value = url; el.focus(); el.select();
+  try { return document.execCommand('copy'); } catch (err) { return false; }
+}
+if (navigator.clipboard && window.isSecureContext) {
+  navigator.clipboard.writeText(url).catch(() => setTimeout(pick, 80));
+} else {
+  // plain http: no clipboard API; show the link selected so Ctrl+C copies it
+  setTimeout(pick, 80);
+}
+"""
+
+
 def _fmt(v, fmt="{:.1f}", unit=""):
     if v is None or (isinstance(v, float) and not math.isfinite(v)):
         return '<span class="na">not measured</span>'
@@ -339,12 +365,16 @@ class Viewer:
                                                           sizing_mode="stretch_width")
         self.w_copy = pn.widgets.Button(label="Copy link", color="primary", width=100,
                                         description="copy the address of this view", margin=(4, 4))
-        self.w_copy.js_on_click(code="""
-            const url = window.location.href;
-            const ask = () => window.prompt('Link to this view', url);
-            if (navigator.clipboard && window.isSecureContext) {
-              navigator.clipboard.writeText(url).catch(ask);
-            } else { ask(); }""")
+        self.w_link = pn.widgets.TextInput(value="", placeholder="link to this view", visible=False,
+                                           sizing_mode="stretch_width", margin=(4, 4),
+                                           css_classes=["striae-link"])
+        self.w_copy.js_on_click(args={"field": self.w_link}, code=COPY_JS)
+        self.w_pdf = pn.widgets.FileDownload(callback=self.export_pdf_bytes, filename="view.pdf",
+                                             label="PDF pages", color="default", embed=False,
+                                             width=110, margin=(4, 4))
+        self.w_html = pn.widgets.FileDownload(callback=self.export_html_bytes, filename="view.html",
+                                              label="standalone HTML", color="default",
+                                              embed=False, width=140, margin=(4, 4))
         self.w_mark_add = pn.widgets.TextInput(label="Mark a range (from–to, then a note)",
                                                placeholder="6550-6575 Hα wing", sizing_mode="stretch_width",
                                                css_classes=["striae-mark-add"])
@@ -451,10 +481,10 @@ class Viewer:
 
     def _build_layout(self):
         nav = pn.Row(self.w_first, self.w_prev_page, self.w_prev_strip, self.w_next_strip,
-                     self.w_next_page, self.w_last, self.page_label, pn.layout.HSpacer(), self.w_whole, self.w_copy,
-                     sizing_mode="stretch_width", margin=0)
+                     self.w_next_page, self.w_last, self.page_label, pn.layout.HSpacer(), self.w_whole,
+                     self.w_pdf, self.w_html, self.w_copy, sizing_mode="stretch_width", margin=0)
         main = pn.Column(
-            nav, self.notice,
+            nav, self.w_link, self.notice,
             pn.pane.Bokeh(self.readout, sizing_mode="stretch_width", margin=(0, 4)),
             pn.pane.Bokeh(self.overview_fig, sizing_mode="stretch_width", margin=(0, 0, 4, 0)),
             self.cmp_box, self.strips, pn.pane.Bokeh(self.bridge, visible=False),
@@ -638,6 +668,54 @@ class Viewer:
         vals = list(opts.values())
         self.w_mark_pick.value = cur if cur in vals else vals[-1]
         self._show_mark_note()
+
+    def export_view(self) -> dict:
+        """The current view as export arguments (``atlas.export``): the zoom window, or
+        the strips of this page; per_page clamped to what one printed page holds."""
+        from atlas import export_pdf as pdfmod
+
+        st = self.state
+        view = {k: getattr(st, k) for k in ("star", "frame", "medium", "unit", "flux", "lines",
+                                            "strength", "marks", "page")}
+        view["per_page"] = min(st.per_page, pdfmod.max_per_page("a4"))
+        if st.lo is not None and st.hi is not None:
+            view["lo"], view["hi"] = st.lo, st.hi
+        else:
+            strips = self.page_strips()
+            fr = self.frame()
+            if strips:
+                view["lo"] = self.strip_display_range(strips[0], fr)[0]
+                view["hi"] = self.strip_display_range(strips[-1], fr)[1]
+        return view
+
+    def _export(self, kind: str):
+        import io
+
+        from atlas import export
+        from atlas.errors import InputError
+
+        buf = io.BytesIO()
+        try:
+            if kind == "pdf":
+                export.export_pdf(self.data.path, out=buf, view=self.export_view())
+            else:
+                export.export_html(self.data.path, out=buf, view=self.export_view())
+        except InputError as exc:
+            self.note(f"export: {exc}")
+            self.refresh_notice()
+            return None
+        buf.seek(0)
+        return buf
+
+    def export_pdf_bytes(self):
+        """PDF pages of the current view (for the download button)."""
+        self.w_pdf.filename = f"{self.state.star}.pdf"
+        return self._export("pdf")
+
+    def export_html_bytes(self):
+        """A standalone HTML page of the current view (for the download button)."""
+        self.w_html.filename = f"{self.state.star}.html"
+        return self._export("html")
 
     def choose_compare(self, star_id):
         """Show a second star; the rest frame (each star through its own RV) by default."""

@@ -1,0 +1,51 @@
+"""The viewer's export buttons: PDF pages and standalone HTML of the current view."""
+
+from __future__ import annotations
+
+import pytest
+
+pytest.importorskip("panel")
+
+
+@pytest.fixture
+def viewer(built_atlas):
+    from atlas.app.data import open_view_atlas
+    from atlas.app.state import ViewState
+    from atlas.app.viewer import Viewer
+
+    state = ViewState()
+    state.param.update(star="test-star-a", per_page=12)
+    return Viewer(open_view_atlas(built_atlas), state)
+
+
+def test_pdf_of_the_page_clamps_strips_per_page(viewer):
+    from atlas.export_pdf import max_per_page
+
+    v = viewer.export_view()
+    assert v["per_page"] == min(12, max_per_page("a4"))
+    buf = viewer.export_pdf_bytes()
+    data = buf.getvalue()
+    assert data.startswith(b"%PDF") and len(data) > 1000
+    assert viewer.w_pdf.filename == "test-star-a.pdf"
+
+
+def test_html_of_a_zoomed_window_carries_the_marks_as_text(viewer):
+    st = viewer.state
+    st.param.update(lo=5005.0, hi=5015.0)
+    viewer.add_mark_text("5008-5010 <script>alert(1)</script>")
+    v = viewer.export_view()
+    assert (v["lo"], v["hi"]) == (5005.0, 5015.0)
+    page = viewer.export_html_bytes().getvalue().decode()
+    assert "&lt;script&gt;alert(1)&lt;/script&gt;" in page
+    assert "<script>alert(1)</script>" not in page
+
+
+def test_export_refusal_becomes_a_notice(viewer, monkeypatch):
+    from atlas.errors import InputError
+
+    def refuse(*a, **k):
+        raise InputError("frame", "no such frame here")
+
+    monkeypatch.setattr("atlas.export.export_pdf", refuse)
+    assert viewer.export_pdf_bytes() is None
+    assert viewer.notice.visible and "no such frame here" in viewer.notice.object
