@@ -590,6 +590,8 @@ class Viewer:
             self.note(str(exc))
             self.refresh_notice()
             return
+        if new[0] in marks:  # the same mark again (e.g. Enter and blur of one typed line)
+            return
         self.state.param.update(marks=marks + new)
         self.w_mark_pick.value = len(self.state.marks) - 1
 
