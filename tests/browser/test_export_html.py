@@ -7,8 +7,6 @@ from __future__ import annotations
 
 import os
 import shutil
-import sys
-from pathlib import Path
 
 import pytest
 
@@ -33,15 +31,11 @@ def browser_type_launch_args(browser_type_launch_args):
 
 @pytest.fixture(scope="module")
 def exported_html(tmp_path_factory):
-    sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "export"))
-    try:
-        from conftest import write_spectrum  # tests/export/conftest.py
-    finally:
-        sys.path.pop(0)
     import io
 
     from atlas.build import BuildOptions, build_atlas
     from atlas.export import export_html
+    from tests.export.conftest import write_spectrum
 
     root = tmp_path_factory.mktemp("export-html")
     spec = write_spectrum(root / "alpha.fits", name="Test Star Alpha", n=12_000)

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import sys
 from pathlib import Path
 
 import numpy as np
@@ -12,8 +11,7 @@ from atlas.synth import demo
 
 REPO = Path(__file__).resolve().parents[2]
 DEMO = REPO / "demo_spectra"
-sys.path.insert(0, str(REPO / "tests"))
-from conftest import assert_one_line_error  # noqa: E402
+from tests.conftest import assert_one_line_error  # noqa: E402
 
 
 @pytest.mark.slow
