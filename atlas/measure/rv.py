@@ -81,6 +81,8 @@ class RVResult:
     note: str = ""
     ccf_velocity_kms: np.ndarray | None = None
     ccf: np.ndarray | None = None
+    method: str = "line mask"
+    systematic_kms: float | None = None  # template fit: half the shift with the runner-up class (not in rv_err_kms)
 
     def as_dict(self) -> dict:
         """JSON-ready summary (no arrays)."""
@@ -99,6 +101,8 @@ class RVResult:
                 "photon_limit_kms",
                 "n_lines",
                 "note",
+                "method",
+                "systematic_kms",
             )
         }
         out["strips"] = [
@@ -705,6 +709,14 @@ def rv_of_spectrum(ds, lines=None, *, site=None, radec=None, time=None,
     res = measure_rv(ds["wavelength"].values, ds["flux"].values, unc, mask,
                      line_wave_A=lw, line_weight=wt, continuum=continuum,
                      v_min_kms=v_min_kms, v_max_kms=v_max_kms)
+    if needs_template(res):
+        from atlas.measure.rv_template import template_rv
+
+        tres = template_rv(ds["wavelength"].values, ds["flux"].values, unc, mask,
+                           continuum=continuum, medium="vacuum" if medium == "vacuum" else "air",
+                           resolving_power=ds.attrs.get("resolving_power"), lines=lines,
+                           v_min_kms=v_min_kms, v_max_kms=v_max_kms)
+        res = choose_rv(res, tres)
     notes = [res.note] if res.note else []
     if medium == "unknown":
         notes.append("wavelength medium unknown: read as air")
@@ -714,6 +726,36 @@ def rv_of_spectrum(ds, lines=None, *, site=None, radec=None, time=None,
         notes.append("no barycentric correction: missing " + ", ".join(missing) + " (give --time/--site/--radec)")
     elif res.rv_obs_kms is not None:
         res.rv_kms = float(apply_kms(res.rv_obs_kms, bary))
-    res.vsini_rough_kms = vsini_rough(res.line_fwhm_kms, ds.attrs.get("resolving_power"))
+    if res.method == "line mask":
+        res.vsini_rough_kms = vsini_rough(res.line_fwhm_kms, ds.attrs.get("resolving_power"))
     res.note = "; ".join(notes)
     return res
+
+
+#: Line-mask results below this significance, or with lines broader than this FWHM
+#: (km/s), are checked against the template fit (our choice, from the demo and tests).
+MASK_MIN_SIGNIFICANCE = 10.0
+MASK_MAX_FWHM_KMS = 60.0
+
+
+def needs_template(res: RVResult) -> bool:
+    """True when a line-mask result is missing, unreliable, weak or from broad lines."""
+    if res.rv_obs_kms is None or "unreliable" in (res.note or ""):
+        return True
+    if res.significance is not None and res.significance < MASK_MIN_SIGNIFICANCE:
+        return True
+    return bool(res.line_fwhm_kms and res.line_fwhm_kms > MASK_MAX_FWHM_KMS)
+
+
+def choose_rv(mask_res: RVResult, template_res: RVResult) -> RVResult:
+    """The better of a line-mask and a template result (a usable one, then the smaller error)."""
+    mask_ok = mask_res.rv_obs_kms is not None and "unreliable" not in (mask_res.note or "")
+    tmpl_ok = template_res.rv_obs_kms is not None
+    if tmpl_ok and (not mask_ok or template_res.rv_err_kms < mask_res.rv_err_kms):
+        if mask_res.rv_obs_kms is None or not mask_ok:
+            why = mask_res.note or "line mask failed"
+            template_res.note = "; ".join(x for x in (template_res.note, f"line mask: {why}") if x)
+        return template_res
+    if not mask_ok and not tmpl_ok and template_res.note:
+        mask_res.note = "; ".join(x for x in (mask_res.note, template_res.note) if x)
+    return mask_res
