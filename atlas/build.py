@@ -279,8 +279,22 @@ def build_star(path: str, options: BuildOptions, atlas_url: str, sha: str, in_us
         attrs=dict(ds.attrs),
     )
     del seq
-    measurements, mnotes = star_measurements(vac, site=options.site, radec=options.radec, time=options.time)
+    extra: dict = {}
+    measurements, mnotes = star_measurements(vac, site=options.site, radec=options.radec,
+                                             time=options.time, extra=extra)
     notes += mnotes
+    if extra.get("rv_obs_kms") is not None:
+        from atlas.measure.card import star_features
+
+        try:
+            feats = star_features(vac, rv_obs_kms=extra["rv_obs_kms"], rv_err_kms=extra.get("rv_err_kms") or 0.0,
+                                  line_fwhm_kms=extra.get("line_fwhm_kms") or 10.0)
+        except (ValueError, RuntimeError, np.linalg.LinAlgError) as exc:
+            notes.append(f"no features: {exc}")
+        else:
+            store.write_features(atlas_url, sname, feats)
+    else:
+        notes.append("no features: no radial velocity to place the line list")
     del vac
     if plan.mode == "velocity":
         desc = f"{plan.n_strips} strips of {plan.width:g} km/s" + (" (chosen from the sampling)" if options.strip_kms is None else "")
@@ -462,8 +476,8 @@ def build_atlas(
         return report
     records = [{k: r.get(k) for k in store.RECORD_KEYS} for r in records]
     for r in records:
-        for k in ("barycentric_kms", "rv_kms", "rv_err_kms", "teff_k", "snr", "resolving_power",
-                  "wavelength_min_A", "wavelength_max_A"):
+        for k in ("barycentric_kms", "rv_kms", "rv_err_kms", "rv_obs_kms", "teff_k", "snr",
+                  "resolving_power", "wavelength_min_A", "wavelength_max_A"):
             r[k] = store.json_number(r[k])
     catalog = {
         "format": store.FORMAT,

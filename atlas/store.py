@@ -34,7 +34,7 @@ RECORD_KEYS = (
     "id", "name", "store", "source", "source_sha256", "wavelength_min_A", "wavelength_max_A",
     "medium", "samples", "strips",
     "barycentric_kms", "rv_kms", "rv_err_kms", "teff_k", "spectral_class", "snr",
-    "resolving_power", "colour_srgb",
+    "resolving_power", "colour_srgb", "rv_obs_kms",
 )
 
 ID_RE = re.compile(r"[a-z0-9][a-z0-9-]{0,63}")
@@ -148,6 +148,17 @@ def write_star(atlas_url: str, name: str, root: xr.Dataset, levels: list[xr.Data
 
     with warnings.catch_warnings():
         # Consolidated metadata is a zarr-python extension to Zarr v3; we rely on it on purpose.
+        warnings.filterwarnings("ignore", message="Consolidated metadata", category=UserWarning)
+        zarr.consolidate_metadata(url, zarr_format=3)
+
+
+def write_features(atlas_url: str, name: str, features: xr.Dataset) -> None:
+    """Write the ``features`` group of a star store (dimension ``feature``) and re-consolidate."""
+    import zarr
+
+    url = join(atlas_url, name)
+    features.to_zarr(url, group="features", mode="w", zarr_format=3, consolidated=False)
+    with warnings.catch_warnings():
         warnings.filterwarnings("ignore", message="Consolidated metadata", category=UserWarning)
         zarr.consolidate_metadata(url, zarr_format=3)
 

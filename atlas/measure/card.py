@@ -20,6 +20,7 @@ MEASUREMENT_KEYS = (
     "snr",
     "resolving_power",
     "colour_srgb",
+    "rv_obs_kms",
 )
 
 
@@ -31,7 +32,8 @@ def _num(x):
     return v if math.isfinite(v) else None
 
 
-def star_measurements(ds, *, site=None, radec=None, time=None) -> tuple[dict, list[str]]:
+def star_measurements(ds, *, site=None, radec=None, time=None, extra: dict | None = None
+                      ) -> tuple[dict, list[str]]:
     """Measurements of one star from its Spectrum in vacuum Å (1-D, sorted); returns (values, notes).
 
     ``ds`` carries ``wavelength`` (vacuum Å), ``flux``, ``mask`` and the file's attributes.
@@ -45,8 +47,9 @@ def star_measurements(ds, *, site=None, radec=None, time=None) -> tuple[dict, li
     - ``resolving_power``: the file's value, else the highest R its sampling supports
       (two pixels per resolution element, common practice).
     - ``colour_srgb``: ``#rrggbb`` true colour (CIE 1931 2° observer, sRGB; colour-science).
-    - ``rv_kms`` (barycentric), ``rv_err_kms``: line-mask cross-correlation,
-      :func:`atlas.measure.rv.rv_of_spectrum` (Bouchy, Pepe & Queloz 2001 errors).
+    - ``rv_kms`` (barycentric), ``rv_obs_kms`` (observer's frame, before the barycentric
+      correction), ``rv_err_kms`` (of both): line-mask cross-correlation, or the class
+      template fit for hot or fast-rotating stars, :func:`atlas.measure.rv.rv_of_spectrum`.
     - ``spectral_class``: chi-square against the class templates,
       :func:`atlas.measure.classify.classify`.
     - ``teff_k``: Planck colour temperature when the flux unit is calibrated, else the
@@ -88,11 +91,16 @@ def star_measurements(ds, *, site=None, radec=None, time=None) -> tuple[dict, li
             notes.append(f"no radial velocity: {rvr.note}")
         else:
             rv_obs, fwhm = rvr.rv_obs_kms, rvr.line_fwhm_kms
-            # barycentric when the correction is known; else both left null (see notes)
+            if extra is not None:
+                extra.update(rv_obs_kms=rv_obs, rv_err_kms=rvr.rv_err_kms, line_fwhm_kms=fwhm)
+            # rv_kms barycentric when the correction is known, else null (see notes);
+            # rv_obs_kms (observer's frame) always, and the one error serves both
             values["rv_kms"] = _num(rvr.rv_kms)
-            if rvr.rv_kms is not None:
-                values["rv_err_kms"] = _num(rvr.rv_err_kms)
-            else:
+            values["rv_obs_kms"] = _num(rvr.rv_obs_kms)
+            values["rv_err_kms"] = _num(rvr.rv_err_kms)
+            if rvr.method != "line mask":
+                notes.append(f"radial velocity by {rvr.method} fit ({rvr.note or 'line mask weak'})")
+            if rvr.rv_kms is None:
                 notes.append(f"radial velocity {rvr.rv_obs_kms:+.3f} km/s in the observer's frame only")
     try:
         cres = classify(wave, flux, unc, mask, rv_obs_kms=rv_obs, line_fwhm_kms=fwhm,
@@ -137,3 +145,67 @@ def _block_means(wave, flux, n_max):
     w = wave[: m * k].reshape(m, k).mean(axis=1)
     f = np.asarray(flux[: m * k], dtype=np.float64).reshape(m, k).mean(axis=1)
     return w, f
+
+
+#: Samples per piece when features are searched (bounded memory on long spectra).
+FEATURE_PIECE = 1_000_000
+
+
+def star_features(ds, *, rv_obs_kms: float, rv_err_kms: float = 0.0, line_fwhm_kms: float = 10.0,
+                  lines=None, min_sigma: float = 5.0):
+    """Identified and unidentified absorption features of a star, in the store's ``features`` layout.
+
+    ``ds`` is the 1-D vacuum Spectrum of :func:`star_measurements`.  Returns an
+    ``xarray.Dataset`` with dimension ``feature``: ``wavelength_A`` (vacuum, observer's
+    frame), ``species`` (empty when unidentified), ``rest_A`` (vacuum rest, NaN when
+    unidentified), ``ew_mA`` (Gaussian-fit equivalent width, mÅ), ``ew_err_mA``,
+    ``kind``, ``significance``.  Works in pieces of :data:`FEATURE_PIECE` samples.
+    Matching: :func:`atlas.measure.identify.identify_spectrum` (matched filter, Turin 1960).
+    """
+    import pandas as pd
+    import xarray as xr
+
+    from atlas.measure.identify import identify_spectrum
+
+    if lines is None:
+        from atlas.lines import load_lines
+
+        lines = load_lines()
+    wave = np.asarray(ds["wavelength"].values)
+    n = wave.size
+    frames = []
+    for a in range(0, n, FEATURE_PIECE):
+        sl = slice(a, min(n, a + FEATURE_PIECE))
+        unc = ds["uncertainty"].values[sl] if "uncertainty" in ds else None
+        if unc is not None and not np.isfinite(unc).any():
+            unc = None
+        mask = ds["mask"].values[sl] if "mask" in ds else None
+        ident, unid = identify_spectrum(wave[sl], ds["flux"].values[sl], lines, rv_obs_kms=rv_obs_kms,
+                                        rv_err_kms=rv_err_kms or 0.0, line_fwhm_kms=line_fwhm_kms,
+                                        uncertainty=unc, mask=mask, medium="vacuum",
+                                        min_sigma=min_sigma)
+        for df, known in ((ident, True), (unid, False)):
+            if len(df):
+                frames.append(pd.DataFrame({
+                    "wavelength_A": df["observed_A"].to_numpy(dtype=np.float64),
+                    "species": df["species"].astype(str).to_numpy() if known else np.full(len(df), ""),
+                    "rest_A": df["rest_A"].to_numpy(dtype=np.float64) if known else np.full(len(df), np.nan),
+                    "ew_mA": df["ew_mA"].to_numpy(dtype=np.float64),
+                    "ew_err_mA": df["ew_err_mA"].to_numpy(dtype=np.float64),
+                    "kind": df["kind"].astype(str).to_numpy() if known else np.full(len(df), "unidentified"),
+                    "significance": df["significance"].to_numpy(dtype=np.float64),
+                }))
+    if frames:
+        allf = pd.concat(frames, ignore_index=True).sort_values("wavelength_A", ignore_index=True)
+    else:
+        allf = pd.DataFrame({k: np.array([], dtype=np.float64) for k in
+                             ("wavelength_A", "rest_A", "ew_mA", "ew_err_mA", "significance")})
+        allf["species"] = np.array([], dtype=str)
+        allf["kind"] = np.array([], dtype=str)
+    out = xr.Dataset({k: ("feature", allf[k].to_numpy()) for k in
+                      ("wavelength_A", "rest_A", "ew_mA", "ew_err_mA", "significance")})
+    for k in ("species", "kind"):
+        # variable-length strings: Zarr v3 has no specified fixed-width unicode type
+        out[k] = ("feature", allf[k].astype(str).to_numpy().astype(object))
+    out.attrs.update(rv_obs_kms=float(rv_obs_kms), medium="vacuum", frame="observed")
+    return out

@@ -23,6 +23,7 @@ DESIGN_RECORD_KEYS = {  # ../shared/DESIGN.md, "Atlas on disk"
     "id", "name", "store", "source", "source_sha256", "wavelength_min_A", "wavelength_max_A",
     "medium", "samples", "strips", "barycentric_kms", "rv_kms", "rv_err_kms", "teff_k",
     "spectral_class", "snr", "resolving_power", "colour_srgb",
+    "rv_obs_kms",  # extension: DEVELOPERS.md "Atlas on disk"
 }
 
 
@@ -43,7 +44,8 @@ def test_catalog_has_the_contract_keys(tmp_path, three):
         assert store.ID_RE.fullmatch(rec["id"])
         assert rec["store"].startswith("stars/") and rec["store"].endswith(".zarr")
         assert rec["colour_srgb"].startswith("#") and len(rec["colour_srgb"]) == 7
-        for k in ("barycentric_kms", "rv_kms", "rv_err_kms", "teff_k", "snr", "resolving_power"):
+        for k in ("barycentric_kms", "rv_kms", "rv_err_kms", "rv_obs_kms", "teff_k", "snr",
+                  "resolving_power"):
             assert rec[k] is None or isinstance(rec[k], int | float), (k, rec[k])
         assert rec["spectral_class"] is None or isinstance(rec["spectral_class"], str)
         assert rec["barycentric_kms"] is None  # these files give no time, site or coordinates
