@@ -35,12 +35,38 @@ def local_stylesheets(doc) -> None:
     doc._template_variables.setdefault("dist_url", LOCAL_DIST)
 
 
+def session_location(doc):
+    """The session's ``pn.state.location``, also for addresses Panel cannot split.
+
+    Panel splits the request address at ``?`` and fails on a second ``?`` inside the
+    query (a hostile or mistyped link); such a link gets a location built here with
+    the whole query, which our own parser then checks like any other.
+    """
+    if doc is None:
+        return None
+    try:
+        return pn.state.location
+    except ValueError:
+        from panel.io.location import Location
+        from panel.util import edit_readonly
+
+        req = doc.session_context.request if doc.session_context is not None else None
+        uri = str(getattr(req, "uri", "") or "")
+        path, _, rest = uri.partition("?")
+        search, _, _frag = rest.partition("#")
+        loc = Location()
+        with edit_readonly(loc):
+            loc.param.update(pathname=path or "/", search=f"?{search}" if search else "")
+        pn.state._locations[doc] = loc
+        return loc
+
+
 def create_session(atlas_path, query: str | None = None, keep: dict | None = None):
     """Build one session's view.  ``query`` (``?a=b&...``) defaults to the browser's URL;
     ``keep``, when given, receives the session's ``viewer`` (for tests and benchmarks)."""
     data = open_view_atlas(atlas_path)
     local_stylesheets(pn.state.curdoc)
-    loc = pn.state.location if pn.state.curdoc is not None else None
+    loc = session_location(pn.state.curdoc)
     if query is None:
         query = loc.search if loc is not None and loc.search else ""
     raw = dict(parse_qsl(query.lstrip("?"), keep_blank_values=True))

@@ -323,7 +323,12 @@ class Viewer:
         self.bridge.on_change("tags", lambda attr, old, new: self.key(new[0] if new else ""))
         self._build_widgets()
         self._build_overview()
-        self._build_compare()
+        self.cmp_figs: list = []  # the comparison's plots are made when first needed
+        self.cmp_title = pn.pane.HTML("", margin=(6, 4, 0, 4), styles={"font-size": "12.5px", "color": INK},
+                                      name="compare-title")
+        self.cmp_box = pn.Column(self.cmp_title, sizing_mode="stretch_width", visible=False,
+                                 margin=(0, 0, 6, 0),
+                                 styles={"border": f"1px solid {RULE}", "border-radius": "4px"})
         self.slots: list[Slot] = []
         self.strips = pn.Column(sizing_mode="stretch_width")
         self._ensure_slots(state.per_page)
@@ -472,12 +477,7 @@ class Viewer:
             ("line", "@species"), ("depth, first star", "@da{0.000}"),
             ("depth, second star", "@db{0.000}"), ("change", "@dd{+0.000}")]))
         self.cmp_figs = figs
-        self.cmp_title = pn.pane.HTML("", margin=(6, 4, 0, 4), styles={"font-size": "12.5px", "color": INK},
-                                      name="compare-title")
-        self.cmp_box = pn.Column(self.cmp_title, *[pn.pane.Bokeh(f, sizing_mode="stretch_width",
-                                                                 margin=(0, 0, 2, 0)) for f in figs],
-                                 sizing_mode="stretch_width", visible=False, margin=(0, 0, 6, 0),
-                                 styles={"border": f"1px solid {RULE}", "border-radius": "4px"})
+        self.cmp_box.extend([pn.pane.Bokeh(f, sizing_mode="stretch_width", margin=(0, 0, 2, 0)) for f in figs])
 
     def _build_layout(self):
         nav = pn.Row(self.w_first, self.w_prev_page, self.w_prev_strip, self.w_next_strip,
@@ -1184,6 +1184,8 @@ class Viewer:
         win = self.compare_window()
         if win is None:
             return
+        if not self.cmp_figs:
+            self._build_compare()
         lo, hi = win
         fa, fb = self.frame(), self.compare_frame()
         sc = scale(st.unit)

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import importlib.util
 import os
+import signal
 import socket
 import subprocess
 import sys
@@ -51,8 +52,10 @@ def _serve(root: Path, atlas_dir: Path, *extra: str):
                XDG_CONFIG_HOME=str(root / "config"), XDG_DATA_HOME=str(root / "data"))
     log_path = root / "serve.log"
     log = open(log_path, "w")
+    # a process group of its own: with --procs N the server forks workers, and stopping
+    # only the parent would leave them running
     proc = subprocess.Popen([sys.executable, "-m", "atlas", "serve", str(atlas_dir), "--port", str(port),
-                             *extra], stdout=log, stderr=subprocess.STDOUT, env=env)
+                             *extra], stdout=log, stderr=subprocess.STDOUT, env=env, start_new_session=True)
     url = f"http://127.0.0.1:{port}/"
     deadline = time.monotonic() + 150
     while True:
@@ -63,18 +66,28 @@ def _serve(root: Path, atlas_dir: Path, *extra: str):
         except OSError:
             pass
         if proc.poll() is not None or time.monotonic() > deadline:
-            proc.kill()
+            _stop(proc, log)
             pytest.fail(f"striae serve did not start: {log_path.read_text()[-2000:]}")
         time.sleep(0.3)
     return proc, url, log_path, log
 
 
 def _stop(proc, log):
-    proc.terminate()
+    """Stop the server and its worker processes (its own process group)."""
+    for sig in (signal.SIGTERM, signal.SIGKILL):
+        try:
+            os.killpg(proc.pid, sig)
+        except ProcessLookupError:
+            break
+        try:
+            proc.wait(timeout=10)
+            time.sleep(0.5)  # give forked workers their SIGTERM too
+        except subprocess.TimeoutExpired:
+            continue
     try:
-        proc.wait(timeout=10)
-    except subprocess.TimeoutExpired:
-        proc.kill()
+        os.killpg(proc.pid, signal.SIGKILL)  # any worker left behind
+    except ProcessLookupError:
+        pass
     log.close()
 
 
