@@ -37,9 +37,15 @@ def common_grid(xa, ya, xb, yb, n: int) -> dict:
             "diff": (b - a).astype(np.float32)}
 
 
-def line_depths(x, y, centres, half_width) -> np.ndarray:
-    """Depth ``1 - min(y)`` of normalised flux ``y`` within ``centres ± half_width``
-    (same units as ``x``; ``half_width`` scalar or per line); NaN where no finite sample."""
+def line_depths(x, y, centres, half_width, cont_half_width=None) -> np.ndarray:
+    """Depth ``1 - min(y) / F_c`` within ``centres ± half_width`` (same units as ``x``;
+    widths scalar or per line); NaN where no finite sample.
+
+    ``F_c`` is 1 (normalised flux), or with ``cont_half_width`` the 95th percentile of
+    ``y`` within ``centres ± cont_half_width``: a local pseudo-continuum, so that a
+    line inside a broad depression (molecular bands, a wide hydrogen wing) is read
+    against its surroundings (common practice).
+    """
     x, y = np.asarray(x, np.float64), np.asarray(y, np.float64)
     c = np.asarray(centres, np.float64)
     h = np.broadcast_to(np.asarray(half_width, np.float64), c.shape)
@@ -50,9 +56,16 @@ def line_depths(x, y, centres, half_width) -> np.ndarray:
     out = np.full(c.shape, np.nan)
     i0 = np.searchsorted(x, c - h, side="left")
     i1 = np.searchsorted(x, c + h, side="right")
+    if cont_half_width is not None:
+        w = np.broadcast_to(np.asarray(cont_half_width, np.float64), c.shape)
+        j0 = np.searchsorted(x, c - w, side="left")
+        j1 = np.searchsorted(x, c + w, side="right")
     for k in range(c.size):
         if i1[k] > i0[k]:
-            out[k] = 1.0 - float(np.min(y[i0[k]:i1[k]]))
+            fc = 1.0
+            if cont_half_width is not None and j1[k] > j0[k]:
+                fc = float(np.percentile(y[j0[k]:j1[k]], 95))
+            out[k] = 1.0 - float(np.min(y[i0[k]:i1[k]])) / fc if fc > 0 else np.nan
     return out
 
 

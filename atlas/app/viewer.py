@@ -332,6 +332,9 @@ class Viewer:
         self.slots: list[Slot] = []
         self.strips = pn.Column(sizing_mode="stretch_width")
         self._ensure_slots(state.per_page)
+        zs = self.zoom_strip()  # a link's zoom window wins over its page
+        if zs is not None and zs not in self.page_strips():
+            state.page = zs // state.per_page + 1
         self.state.param.watch(self._on_state, list(URL_PARAMS))
         self.layout = self._build_layout()
         self.refresh()
@@ -375,11 +378,12 @@ class Viewer:
                                            css_classes=["striae-link"])
         self.w_copy.js_on_click(args={"field": self.w_link}, code=COPY_JS)
         self.w_pdf = pn.widgets.FileDownload(callback=self.export_pdf_bytes, filename="view.pdf",
-                                             label="PDF pages", color="default", embed=False,
-                                             width=110, margin=(4, 4))
+                                             label="PDF", color="default", embed=False,
+                                             width=64, margin=(4, 2), description="PDF pages of this view")
         self.w_html = pn.widgets.FileDownload(callback=self.export_html_bytes, filename="view.html",
-                                              label="standalone HTML", color="default",
-                                              embed=False, width=140, margin=(4, 4))
+                                              label="HTML", color="default",
+                                              embed=False, width=70, margin=(4, 2),
+                                              description="a standalone HTML page of this view (opens with no server)")
         self.w_mark_add = pn.widgets.TextInput(label="Mark a range (from–to, then a note)",
                                                placeholder="6550-6575 Hα wing", sizing_mode="stretch_width",
                                                css_classes=["striae-mark-add"])
@@ -443,6 +447,7 @@ class Viewer:
                                       name="compare-diff")
         self.cmp_l = ColumnDataSource({k: [] for k in ("x", "species", "da", "db", "dd", "colour",
                                                        "marker", "size", "label")}, name="compare-lines")
+        self.cmp_k = ColumnDataSource({"x0": [], "x1": [], "note": []}, name="compare-marks")
         figs = []
         for name, src, colour, h in (("compare-fig-a", self.cmp_a, SPECTRUM, 120),
                                      ("compare-fig-b", self.cmp_b, SECOND, 120),
@@ -461,8 +466,14 @@ class Viewer:
             fig.xaxis.major_label_text_font_size = "10px"
             fig.yaxis.major_label_text_font_size = "9px"
             fig.yaxis.ticker.desired_num_ticks = 3
+            fig.vstrip(x0="x0", x1="x1", source=self.cmp_k, fill_color=FOCUS, fill_alpha=0.22,
+                       line_alpha=0)
             if name != "compare-fig-diff":
                 fig.vspan(x="x", source=self.cmp_l, line_color="colour", line_alpha=0.5, line_width=1)
+            else:
+                fig.add_layout(LabelSet(x="x0", y=-4, y_units="screen", text="note", source=self.cmp_k,
+                                        text_font_size="10px", text_color="#6b4e00", x_offset=3,
+                                        text_baseline="bottom"))
             fig.line("x", "y", source=src, line_color=colour, line_width=1.1)
             fig.on_event(RangesUpdate, self.on_compare_range)
             fig.on_change("inner_width", lambda attr, old, new: self.on_width())
@@ -1191,7 +1202,7 @@ class Viewer:
         sc = scale(st.unit)
         width = plot_width_px(self.cmp_figs[0])
         key = (st.star, st.compare, round(lo, 6), round(hi, 6), fa, fb, st.unit, width,
-               tuple(st.lines), st.strength)
+               tuple(st.lines), st.strength, tuple(map(tuple, st.marks)))
         self.cmp_box.visible = True
         if key == self._cmp_key:
             return
@@ -1209,6 +1220,9 @@ class Viewer:
         grid = cmpmod.common_grid(xa, ya, xb, yb, width)
         self.cmp_d.data = {"x": grid["x"] / np.float32(sc), "y": grid["diff"]}
         self.cmp_l.data = self._compare_lines(lo, hi, fa, fb, xa, ya, xb, yb, sc)
+        here = [m for m in st.marks if m[1] >= lo and m[0] <= hi]
+        self.cmp_k.data = {"x0": [m[0] / sc for m in here], "x1": [m[1] / sc for m in here],
+                           "note": [m[2] for m in here]}
         for f in self.cmp_figs:
             f.x_range.update(start=lo / sc, end=hi / sc)
         ys = np.concatenate([ya[np.isfinite(ya)], yb[np.isfinite(yb)]])
@@ -1256,8 +1270,10 @@ class Viewer:
         idx = idx[np.argsort(lines["strength"].to_numpy()[idx], kind="stable")][:120]
         pb = fb.rest_vac_to_display_A(vac[idx], False)
         spacing = (hi - lo) / max(len(xa), 2)
-        da = cmpmod.line_depths(xa, ya, pa[idx], cmpmod.depth_half_width(pa[idx], spacing))
-        db = cmpmod.line_depths(xb, yb, pb, cmpmod.depth_half_width(pb, spacing))
+        da = cmpmod.line_depths(xa, ya, pa[idx], cmpmod.depth_half_width(pa[idx], spacing),
+                                cmpmod.depth_half_width(pa[idx], spacing, kms=60.0))
+        db = cmpmod.line_depths(xb, yb, pb, cmpmod.depth_half_width(pb, spacing),
+                                cmpmod.depth_half_width(pb, spacing, kms=60.0))
         ch = cmpmod.change(da, db)
         keep = ch != 0
         if not keep.any():

@@ -98,3 +98,14 @@ def test_choosing_a_second_star_shows_linked_panels_in_the_rest_frame(viewer):
 def test_compare_equal_to_star_is_refused(viewer):
     viewer.state.param.update(compare="test-star-a")
     assert viewer.state.compare == ""
+
+
+def test_depth_against_a_local_continuum_inside_a_broad_depression():
+    # a line of depth 0.3 sitting in a band that lowers the flux to 0.5 (common practice:
+    # read the line against its surroundings)
+    x = np.linspace(6000.0, 6020.0, 4001)
+    y = 0.5 * (1.0 - 0.3 * np.exp(-0.5 * ((x - 6010.0) / 0.1) ** 2))
+    d_plain = compare.line_depths(x, y, [6010.0], 0.3)
+    d_local = compare.line_depths(x, y, [6010.0], 0.3, 3.0)
+    assert d_plain[0] == pytest.approx(0.65, abs=1e-3)
+    assert d_local[0] == pytest.approx(0.30, abs=1e-3)
