@@ -287,12 +287,13 @@ def build_star(path: str, options: BuildOptions, atlas_url: str, sha: str, in_us
         from atlas.measure.card import star_features
 
         try:
-            feats = star_features(vac, rv_obs_kms=extra["rv_obs_kms"], rv_err_kms=extra.get("rv_err_kms") or 0.0,
+            feats = star_features(extra.get("measured_ds", vac), rv_obs_kms=extra["rv_obs_kms"], rv_err_kms=extra.get("rv_err_kms") or 0.0,
                                   line_fwhm_kms=extra.get("line_fwhm_kms") or 10.0)
         except (ValueError, RuntimeError, np.linalg.LinAlgError) as exc:
             notes.append(f"no features: {exc}")
         else:
             store.write_features(atlas_url, sname, feats)
+        extra.clear()
     else:
         notes.append("no features: no radial velocity to place the line list")
     del vac

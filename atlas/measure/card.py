@@ -74,16 +74,31 @@ def star_measurements(ds, *, site=None, radec=None, time=None, extra: dict | Non
             + " (give --time/--site/--radec)"
         )
 
-    values["snr"] = _num(der_snr(flux, mask))
+    if flux.ndim == 1 and flux.size > SNR_PIECE:
+        # long spectra: DER_SNR of contiguous pieces, their median (as for echelle
+        # orders), so no float64 copy of the whole spectrum is made
+        per = [der_snr(flux[a : a + SNR_PIECE], None if mask is None else mask[a : a + SNR_PIECE])
+               for a in range(0, flux.size, SNR_PIECE)]
+        per = [v for v in per if np.isfinite(v)]
+        values["snr"] = _num(np.median(per)) if per else None
+    else:
+        values["snr"] = _num(der_snr(flux, mask))
 
     # radial velocity (atlas.measure.rv), class and temperature (atlas.measure.classify)
     from atlas.measure.classify import classify, colour_temperature, is_calibrated
-    from atlas.measure.rv import rv_of_spectrum
 
-    unc = np.asarray(ds["uncertainty"].values) if "uncertainty" in ds else None
+    # long spectra: velocity, class and features on 0.5 km/s bins (bounded memory)
+    from atlas.measure.rv import bin_long_spectrum, rv_of_spectrum
+
+    mds, bnote = bin_long_spectrum(ds)
+    if bnote:
+        notes.append(bnote)
+    if extra is not None:
+        extra["measured_ds"] = mds
+    unc = np.asarray(mds["uncertainty"].values) if "uncertainty" in mds else None
     rv_obs, fwhm = 0.0, None
     try:
-        rvr = rv_of_spectrum(ds, site=site, radec=radec, time=time)
+        rvr = rv_of_spectrum(mds, site=site, radec=radec, time=time)
     except (ValueError, RuntimeError, np.linalg.LinAlgError) as exc:
         notes.append(f"no radial velocity: {exc}")
     else:
@@ -103,13 +118,15 @@ def star_measurements(ds, *, site=None, radec=None, time=None, extra: dict | Non
             if rvr.rv_kms is None:
                 notes.append(f"radial velocity {rvr.rv_obs_kms:+.3f} km/s in the observer's frame only")
     try:
-        cres = classify(wave, flux, unc, mask, rv_obs_kms=rv_obs, line_fwhm_kms=fwhm,
+        mw, mf = mds["wavelength"].values, mds["flux"].values
+        mm = mds["mask"].values if "mask" in mds else None
+        cres = classify(mw, mf, unc, mm, rv_obs_kms=rv_obs, line_fwhm_kms=fwhm,
                         resolving_power=ds.attrs.get("resolving_power"), medium="vacuum")
         values["spectral_class"] = cres.spectral_class
         if cres.note:
             notes.append(cres.note)
         if is_calibrated(ds):
-            values["teff_k"] = _num(colour_temperature(wave, flux, unc, mask)[0])
+            values["teff_k"] = _num(colour_temperature(mw, mf, unc, mm)[0])
         elif cres.class_teff_k is not None:
             values["teff_k"] = _num(round(cres.class_teff_k, -1))
             notes.append("flux not calibrated: teff_k is the class's temperature")
@@ -118,19 +135,30 @@ def star_measurements(ds, *, site=None, radec=None, time=None, extra: dict | Non
 
     r = _num(ds.attrs.get("resolving_power"))
     if r is None:
-        r = _num(implied_resolving_power(median_sampling_kms(wave)))
+        if wave.ndim == 1 and wave.size > SNR_PIECE:
+            # long spectra: the median of per-piece medians (no whole-length temporaries)
+            samp = float(np.nanmedian([median_sampling_kms(wave[a : a + SNR_PIECE + 1])
+                                       for a in range(0, wave.size - 1, SNR_PIECE)]))
+        else:
+            samp = median_sampling_kms(wave)
+        r = _num(implied_resolving_power(samp))
         if r is not None:
             notes.append(f"resolving power not in the file: {r:.0f} implied by the sampling")
     values["resolving_power"] = r
 
-    good = np.isfinite(flux) & np.isfinite(wave)
-    if mask is not None:
-        good &= ~mask
+    # colour from the binned spectrum when it is long (bin means integrate alike)
+    cw, cf = np.asarray(mds["wavelength"].values), np.asarray(mds["flux"].values)
+    good = np.isfinite(cf) & np.isfinite(cw)
+    if "mask" in mds:
+        good &= ~np.asarray(mds["mask"].values, dtype=bool)
     if np.count_nonzero(good) >= 2:
-        w, f = _block_means(wave[good], flux[good], COLOUR_POINTS)
+        w, f = _block_means(cw[good], cf[good], COLOUR_POINTS)
         values["colour_srgb"] = hex_of(srgb_of_spectrum(w, f))
     return values, notes
 
+
+#: DER_SNR of spectra longer than this is the median over pieces this long (samples).
+SNR_PIECE = 1_000_000
 
 #: Colour is integrated on a 1 nm grid: block means down to this many points lose nothing.
 COLOUR_POINTS = 20_000

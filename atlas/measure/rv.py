@@ -759,3 +759,80 @@ def choose_rv(mask_res: RVResult, template_res: RVResult) -> RVResult:
     if not mask_ok and not tmpl_ok and template_res.note:
         mask_res.note = "; ".join(x for x in (mask_res.note, template_res.note) if x)
     return mask_res
+
+
+#: Spectra longer than this (samples) are binned before the velocity, class and feature
+#: steps, so their memory stays bounded (see :func:`bin_long_spectrum`).
+LONG_SAMPLES = 2_000_000
+#: Bin width (km/s) for long spectra: a boxcar this wide adds sigma = width / sqrt(12)
+#: = 0.14 km/s in quadrature to a line, far below any stellar line width (common practice).
+LONG_BIN_KMS = 0.5
+
+
+def bin_long_spectrum(ds, *, max_samples: int = LONG_SAMPLES, step_kms: float = LONG_BIN_KMS,
+                      piece: int = 1_000_000):
+    """A long 1-D sorted Spectrum binned to ``step_kms`` in ln(wavelength): (Dataset, note).
+
+    Returned unchanged (note None) when it is short, 2-D, unsorted, or sampled coarser
+    than half the bin (binning would gain nothing), or when the resolving power in its
+    attributes puts fewer than 4 bins in a resolution element.  Each bin is the mean of
+    its good samples (wavelength and flux), its uncertainty sqrt(sum sigma^2) / n; bins
+    with no good sample are masked.  Works ``piece`` samples at a time.
+    """
+    import xarray as xr
+
+    wave = ds["wavelength"].values
+    if wave.ndim != 1 or wave.size <= max_samples:
+        return ds, None
+    r = ds.attrs.get("resolving_power")
+    if r:
+        try:
+            step_kms = min(step_kms, C_KMS / float(r) / 4.0)
+        except (TypeError, ValueError):
+            pass
+    n_all = wave.size
+    span = math.log(float(wave[-1]) / float(wave[0])) if wave[0] > 0 and wave[-1] > wave[0] else 0.0
+    if span <= 0 or span * C_KMS / (n_all - 1) > step_kms / 2:
+        return ds, None
+    if np.any(np.diff(wave[:: max(1, n_all // 10_000)]) < 0):
+        return ds, None
+    dln = step_kms / C_KMS
+    nb = int(span / dln) + 1
+    x0 = math.log(float(wave[0]))
+    wsum = np.zeros(nb)
+    fsum = np.zeros(nb)
+    vsum = np.zeros(nb)
+    cnt = np.zeros(nb)
+    has_unc = "uncertainty" in ds and np.isfinite(ds["uncertainty"].values[: min(n_all, 1000)]).any()
+    for a in range(0, n_all, piece):
+        sl = slice(a, min(n_all, a + piece))
+        w = np.asarray(wave[sl], dtype=np.float64)
+        f = np.asarray(ds["flux"].values[sl], dtype=np.float64)
+        good = np.isfinite(f) & np.isfinite(w) & (w > 0)
+        if "mask" in ds:
+            good &= ~np.asarray(ds["mask"].values[sl], dtype=bool)
+        u = None
+        if has_unc:
+            u = np.asarray(ds["uncertainty"].values[sl], dtype=np.float64)
+            good &= np.isfinite(u)
+        idx = np.clip(((np.log(w[good]) - x0) / dln).astype(np.int64), 0, nb - 1)
+        wsum += np.bincount(idx, weights=w[good], minlength=nb)
+        fsum += np.bincount(idx, weights=f[good], minlength=nb)
+        cnt += np.bincount(idx, minlength=nb)
+        if u is not None:
+            vsum += np.bincount(idx, weights=u[good] ** 2, minlength=nb)
+    empty = cnt == 0
+    centre = np.exp(x0 + dln * (np.arange(nb) + 0.5))
+    with np.errstate(invalid="ignore", divide="ignore"):
+        wb = np.where(empty, centre, wsum / cnt)
+        fb = np.where(empty, np.nan, fsum / cnt)
+        ub = np.where(empty, np.nan, np.sqrt(vsum) / cnt)
+    del wsum, fsum, vsum
+    # means of bins are increasing except where a bin is empty: keep the grid order
+    wb = np.maximum.accumulate(wb)
+    data = {"flux": ("sample", fb), "mask": ("sample", empty)}
+    if has_unc:
+        data["uncertainty"] = ("sample", ub)
+    attrs = dict(ds["wavelength"].attrs)
+    out = xr.Dataset(data, coords={"wavelength": ("sample", wb, attrs)}, attrs=dict(ds.attrs))
+    return out, f"{n_all:,} samples binned to {step_kms:g} km/s ({nb:,} bins) for the measurements"
