@@ -117,3 +117,41 @@ def test_the_comparison_plots_move_together_and_the_url_follows(server, chromium
     page.screenshot(path=str(tmp_path / "compare.png"), full_page=True)
     assert errors == []
     ctx.close()
+
+
+FIND_LINK = """() => {
+  function find(root) {
+    for (const e of root.querySelectorAll('*')) {
+      if (e.tagName === 'INPUT' && e.placeholder === 'link to this view') { return e; }
+      if (e.shadowRoot) { const f = find(e.shadowRoot); if (f) { return f; } }
+    }
+    return null;
+  }
+  const el = find(document);
+  if (!el) { return null; }
+  const r = el.getBoundingClientRect();
+  return {value: el.value, shown: r.width > 0 && r.height > 0,
+          selected: el.selectionStart === 0 && el.selectionEnd === el.value.length && el.value.length > 0};
+}"""
+
+
+def test_copy_link_copies_the_whole_address_or_shows_it_selected(server, chromium, view_tools):
+    ctx = chromium.new_context(viewport={"width": 1400, "height": 900})
+    ctx.grant_permissions(["clipboard-read", "clipboard-write"], origin=server["url"].rstrip("/"))
+    page = ctx.new_page()
+    dialogs = []
+    page.on("dialog", lambda d: (dialogs.append(d.message), d.dismiss()))
+    view_tools.open_view(page, server["url"], "?star=test-star-b&lo=6010&hi=6030&frame=rest")
+    href = page.evaluate("() => window.location.href")
+    assert "star=test-star-b" in href and "lo=6010" in href
+    page.get_by_role("button", name="Copy link").click()
+    got = view_tools.wait_for(lambda: page.evaluate("() => navigator.clipboard.readText()") == href, timeout=10)
+    assert got, (page.evaluate("() => navigator.clipboard.readText()"), href)
+    # without a clipboard API (as on plain http) the link is shown, selected
+    page.evaluate("() => { Object.defineProperty(navigator, 'clipboard', {value: undefined}); }")
+    page.get_by_role("button", name="Copy link").click()
+    shown = view_tools.wait_for(lambda: (lambda r: r if r and r["shown"] and r["selected"] else None)(
+        page.evaluate(FIND_LINK)), timeout=10)
+    assert shown and shown["value"] == href, page.evaluate(FIND_LINK)
+    assert dialogs == []
+    ctx.close()
