@@ -10,7 +10,13 @@
    nearest listed line within a tolerance that adds in quadrature 3 times the
    feature's position error, 3 times the RV error, and a quarter of the line FWHM
    (blends, list accuracy); strong lines win ties.  ``quality`` = 1 - offset/tolerance.
-4. Features nothing in the list explains are returned apart, most significant first.
+4. Features no single line explains but that lie inside a band are explained by it:
+   a telluric band (its start and end rows in the list, observer's frame) or a
+   molecular band (from its head, in the direction it fades, over three e-folding
+   lengths of our schematic band model, :mod:`atlas.synth.molecules`; moved with the
+   star).  ``kind`` is then ``telluric_band`` or ``molecular_band``, ``rest_A`` the
+   band's start or head.
+5. Features nothing in the list explains are returned apart, most significant first.
 
 References
 ----------
@@ -112,6 +118,42 @@ def find_features(wave_A, norm_flux, sigma, *, line_fwhm_kms: float, min_sigma: 
     return pd.DataFrame(rows, columns=cols)
 
 
+#: A molecular band reaches this many e-folding lengths from its head (exp(-3) = 5 %
+#: of its peak opacity: our choice).
+BAND_EFOLDS = 3.0
+
+
+def band_regions(lines: pd.DataFrame, medium: str = "vacuum") -> list[tuple[float, float, str, str, float]]:
+    """Band regions of the line list: (lo_A, hi_A, species, kind, ref_A) in ``medium``.
+
+    ``kind`` ``telluric_band`` (observer's frame; ``ref_A`` the band start) from the
+    ``band start`` / ``band end`` telluric rows, or ``molecular_band`` (stellar rest
+    frame; ``ref_A`` the head) from ``band_head`` rows, reaching ``BAND_EFOLDS`` times
+    the band's fade length of :data:`atlas.synth.molecules.BAND_SCALE_A` to the red or
+    violet as :data:`atlas.synth.molecules.MOLECULES` says (directions from memory).
+    """
+    from atlas.measure.rv_template import telluric_regions_A
+    from atlas.synth.molecules import BAND_SCALE_A, MOLECULES
+
+    out = []
+    col = "vacuum_A" if medium == "vacuum" else "air_A"
+    tell = lines[lines["telluric"].astype(str).str.lower().isin(["true", "1"])]
+    for lo, hi in telluric_regions_A(lines, medium):
+        at = tell[(tell[col] - lo).abs() < 1e-6]
+        sp = str(at["species"].iloc[0]) if len(at) else "telluric"
+        out.append((lo, hi, sp, "telluric_band", lo))
+    heads = lines[lines["kind"].astype(str) == "band_head"]
+    for sp, head in zip(heads["species"].astype(str), heads[col].astype(float), strict=True):
+        if sp not in BAND_SCALE_A or sp not in MOLECULES:
+            continue
+        reach = BAND_EFOLDS * BAND_SCALE_A[sp]
+        if MOLECULES[sp][-1] == "red":
+            out.append((head, head + reach, sp, "molecular_band", head))
+        else:
+            out.append((head - reach, head, sp, "molecular_band", head))
+    return out
+
+
 def identify(features: pd.DataFrame, lines: pd.DataFrame, *, rv_obs_kms: float,
              rv_err_kms: float = 0.0, line_fwhm_kms: float = 10.0,
              medium: str = "vacuum") -> tuple[pd.DataFrame, pd.DataFrame]:
@@ -134,6 +176,7 @@ def identify(features: pd.DataFrame, lines: pd.DataFrame, *, rv_obs_kms: float,
     species = lines["species"].to_numpy()[order]
     kind = lines["kind"].astype(str).to_numpy()[order]
     strength = lines["strength"].to_numpy(dtype=np.float64)[order]
+    bands = band_regions(lines, "vacuum" if medium == "vacuum" else "air")
     ident, unid = [], []
     for row in features.itertuples(index=False):
         pos_kms = row.observed_err_A / row.observed_A * C_KMS
@@ -150,7 +193,13 @@ def identify(features: pd.DataFrame, lines: pd.DataFrame, *, rv_obs_kms: float,
                 best = (score, j, off)
         base = row._asdict()
         if best is None:
-            unid.append(base)
+            band = _in_band(row.observed_A, bands, factor)
+            if band is None:
+                unid.append(base)
+            else:
+                sp, knd, ref = band
+                ident.append({**base, "rest_A": ref, "species": sp, "kind": knd,
+                              "offset_kms": float("nan"), "quality": 0.0})
             continue
         _, j, off = best
         rest = lw[j]
@@ -167,6 +216,17 @@ def identify(features: pd.DataFrame, lines: pd.DataFrame, *, rv_obs_kms: float,
     if len(unid_df):
         unid_df = unid_df.sort_values("significance", ascending=False, ignore_index=True)
     return ident_df, unid_df
+
+
+def _in_band(observed_A: float, bands, factor: float):
+    """(species, kind, ref_A) of the narrowest band holding a feature, telluric bands first."""
+    rest = observed_A / factor
+    for kind_, at in (("telluric_band", observed_A), ("molecular_band", rest)):
+        inside = [b for b in bands if b[3] == kind_ and b[0] <= at <= b[1]]
+        if inside:
+            lo, hi, sp, knd, ref = min(inside, key=lambda b: b[1] - b[0])
+            return sp, knd, ref
+    return None
 
 
 def identify_spectrum(wave_A, flux, lines, *, rv_obs_kms: float, rv_err_kms: float = 0.0,

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import numpy as np
+import pytest
 
 from atlas.measure.identify import identify_spectrum
 
@@ -73,3 +74,52 @@ def test_noise_alone_gives_few_features(synth, lines):
     ident, unid = identify_spectrum(wave, flux, lines, rv_obs_kms=0.0, line_fwhm_kms=9.0,
                                     uncertainty=np.full(wave.size, 0.01), normalised=True)
     assert len(ident) + len(unid) <= 2
+
+
+def _feature(observed_A, err_A=0.01):
+    return {"observed_A": observed_A, "observed_err_A": err_A, "depth": 0.1, "depth_err": 0.01,
+            "ew_mA": 20.0, "ew_err_mA": 2.0, "fwhm_kms": 8.0, "significance": 10.0}
+
+
+def test_features_inside_bands_are_explained_by_them(lines):
+    # Band regions come from the list itself: the O2 band's start/end rows (observer's
+    # frame; the O2 B band near 6867-6884 Å air, from memory) and the TiO head at
+    # 7054 Å air fading to the red (TiO bands are red-degraded: Herzberg 1950, from memory).
+    import pandas as pd
+
+    from atlas.measure.identify import band_regions, identify
+
+    regions = band_regions(lines, "vacuum")
+    o2 = [r for r in regions if r[2] == "O2" and r[3] == "telluric_band" and r[0] < 6880 < r[1]]
+    tio = [r for r in regions if r[2] == "TiO" and r[3] == "molecular_band" and abs(r[4] - 7056.1) < 0.1]
+    assert o2 and tio and tio[0][1] > tio[0][0] == tio[0][4]  # red-degraded: head at the blue end
+    rv_kms = 60.0
+    d = float(np.sqrt((1 + rv_kms / 299792.458) / (1 - rv_kms / 299792.458)))
+    feats = pd.DataFrame([_feature(6876.3), _feature(7100.7 * d), _feature(3000.0)])
+    ident, unid = identify(feats, lines, rv_obs_kms=rv_kms, line_fwhm_kms=8.0)
+    got = {round(r.observed_A, 1): (r.species, r.kind) for r in ident.itertuples()}
+    assert got[6876.3] == ("O2", "telluric_band")  # the narrower band, not the wider H2O one
+    assert got[round(7100.7 * d, 1)] == ("TiO", "molecular_band")
+    assert list(unid.observed_A) == [3000.0]
+
+
+@pytest.mark.slow
+def test_m_star_band_features_are_not_left_unexplained(lines):
+    # An M3 dwarf from atlas.synth (TiO, CaH bands; telluric O2/H2O at airmass 1.5):
+    # no feature inside a band region may be left among the unidentified.
+    from atlas.measure.identify import band_regions
+    from atlas.synth.model import Star, synthesize
+
+    wave = np.exp(np.linspace(np.log(6800.0), np.log(7300.0), 40_000))
+    syn = synthesize(wave, Star(teff_k=3430.0, logg=4.8, vsini_kms=2.0, rv_kms=-20.0),
+                     resolving_power=50000, airmass=1.5)
+    flux = syn.normalised + np.random.default_rng(3).normal(size=wave.size) / 150.0
+    ident, unid = identify_spectrum(wave, flux, lines, rv_obs_kms=-20.0, line_fwhm_kms=7.0,
+                                    normalised=True, uncertainty=np.full(wave.size, 1 / 150.0))
+    kinds = set(ident.kind)
+    assert {"telluric_band", "molecular_band"} <= kinds
+    d = float(np.sqrt((1 - 20.0 / 299792.458) / (1 + 20.0 / 299792.458)))
+    for lo, hi, _, knd, _ in band_regions(lines, "vacuum"):
+        scale = d if knd == "molecular_band" else 1.0
+        inside = (unid.observed_A >= lo * scale) & (unid.observed_A <= hi * scale)
+        assert not inside.any(), (lo, hi, unid.observed_A[inside].tolist()[:5])
