@@ -246,7 +246,12 @@ def build_star(path: str, options: BuildOptions, atlas_url: str, sha: str, in_us
     wmin, wmax = float(np.min(seq["wavelength"])), float(np.max(seq["wavelength"]))
     # Store first, then measure: the two largest memory peaks never overlap.
     root, levels = star_arrays(seq, plan)
-    seq.pop("continuum")
+    # echelle input: the orders' own continua (their blaze) normalise the merged spectrum
+    # for the class and the features; other spectra are normalised inside the measurements
+    cont = seq.pop("continuum")
+    if not is_echelle(ds):
+        del cont
+        cont = None
     name = str(ds.attrs.get("target") or "").strip() or os.path.splitext(os.path.basename(path))[0]
     slug = store.slugify(name, fallback=store.slugify(os.path.basename(path)))
     root.attrs.update(
@@ -273,6 +278,9 @@ def build_star(path: str, options: BuildOptions, atlas_url: str, sha: str, in_us
     vac_vars = {"flux": ("sample", seq["flux"]), "mask": ("sample", seq["mask"])}
     if seq.get("uncertainty") is not None:
         vac_vars["uncertainty"] = ("sample", seq["uncertainty"])
+    if cont is not None:
+        vac_vars["continuum"] = ("sample", cont)
+        del cont
     vac = xr.Dataset(
         vac_vars,
         coords={"wavelength": ("sample", seq["wavelength"], {"medium": "vacuum"})},
@@ -281,7 +289,8 @@ def build_star(path: str, options: BuildOptions, atlas_url: str, sha: str, in_us
     del seq
     extra: dict = {}
     measurements, mnotes = star_measurements(vac, site=options.site, radec=options.radec,
-                                             time=options.time, extra=extra)
+                                             time=options.time, extra=extra,
+                                             rv_source=ds if is_echelle(ds) else None)
     notes += mnotes
     if extra.get("rv_obs_kms") is not None:
         from atlas.measure.card import star_features

@@ -32,11 +32,16 @@ def _num(x):
     return v if math.isfinite(v) else None
 
 
-def star_measurements(ds, *, site=None, radec=None, time=None, extra: dict | None = None
-                      ) -> tuple[dict, list[str]]:
+def star_measurements(ds, *, site=None, radec=None, time=None, extra: dict | None = None,
+                      rv_source=None) -> tuple[dict, list[str]]:
     """Measurements of one star from its Spectrum in vacuum Å (1-D, sorted); returns (values, notes).
 
-    ``ds`` carries ``wavelength`` (vacuum Å), ``flux``, ``mask`` and the file's attributes.
+    ``ds`` carries ``wavelength`` (vacuum Å), ``flux``, ``mask`` and the file's attributes,
+    and for merged echelle orders ``continuum`` (each order's own, its blaze): the class
+    and the features then use ``flux / continuum``.  ``rv_source`` (the file's own
+    Spectrum, e.g. echelle orders) is used for the radial velocity instead of ``ds``.
+    ``extra``, when given, receives ``rv_obs_kms``, ``rv_err_kms``, ``line_fwhm_kms`` and
+    ``measured_ds`` (the possibly binned, normalised spectrum the features should use).
     ``site``/``radec``/``time`` override the file as in
     :func:`atlas.physics.barycentric.correction_for`.  ``values`` has exactly the keys
     :data:`MEASUREMENT_KEYS`, each a number, a string or None; ``notes`` are one-line
@@ -93,12 +98,16 @@ def star_measurements(ds, *, site=None, radec=None, time=None, extra: dict | Non
     mds, bnote = bin_long_spectrum(ds)
     if bnote:
         notes.append(bnote)
+    raw = mds
+    if "continuum" in ds:
+        mds = _normalised(ds)
+        mds, _ = bin_long_spectrum(mds)
     if extra is not None:
         extra["measured_ds"] = mds
     unc = np.asarray(mds["uncertainty"].values) if "uncertainty" in mds else None
     rv_obs, fwhm = 0.0, None
     try:
-        rvr = rv_of_spectrum(mds, site=site, radec=radec, time=time)
+        rvr = rv_of_spectrum(mds if rv_source is None else rv_source, site=site, radec=radec, time=time)
     except (ValueError, RuntimeError, np.linalg.LinAlgError) as exc:
         notes.append(f"no radial velocity: {exc}")
     else:
@@ -126,7 +135,9 @@ def star_measurements(ds, *, site=None, radec=None, time=None, extra: dict | Non
         if cres.note:
             notes.append(cres.note)
         if is_calibrated(ds):
-            values["teff_k"] = _num(colour_temperature(mw, mf, unc, mm)[0])
+            runc = np.asarray(raw["uncertainty"].values) if "uncertainty" in raw else None
+            values["teff_k"] = _num(colour_temperature(raw["wavelength"].values, raw["flux"].values,
+                                                       runc, raw["mask"].values if "mask" in raw else None)[0])
         elif cres.class_teff_k is not None:
             values["teff_k"] = _num(round(cres.class_teff_k, -1))
             notes.append("flux not calibrated: teff_k is the class's temperature")
@@ -147,14 +158,32 @@ def star_measurements(ds, *, site=None, radec=None, time=None, extra: dict | Non
     values["resolving_power"] = r
 
     # colour from the binned spectrum when it is long (bin means integrate alike)
-    cw, cf = np.asarray(mds["wavelength"].values), np.asarray(mds["flux"].values)
+    cw, cf = np.asarray(raw["wavelength"].values), np.asarray(raw["flux"].values)
     good = np.isfinite(cf) & np.isfinite(cw)
-    if "mask" in mds:
-        good &= ~np.asarray(mds["mask"].values, dtype=bool)
+    if "mask" in raw:
+        good &= ~np.asarray(raw["mask"].values, dtype=bool)
     if np.count_nonzero(good) >= 2:
         w, f = _block_means(cw[good], cf[good], COLOUR_POINTS)
         values["colour_srgb"] = hex_of(srgb_of_spectrum(w, f))
     return values, notes
+
+
+def _normalised(ds):
+    """``flux / continuum`` (and its uncertainty) of a Spectrum with a ``continuum`` variable."""
+    import xarray as xr
+
+    c = np.asarray(ds["continuum"].values, dtype=np.float64)
+    ok = np.isfinite(c) & (c > 0)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        data = {"flux": ("sample", np.where(ok, ds["flux"].values / c, np.nan))}
+        if "uncertainty" in ds:
+            data["uncertainty"] = ("sample", np.where(ok, ds["uncertainty"].values / np.abs(c), np.nan))
+    bad = ~ok
+    if "mask" in ds:
+        bad |= np.asarray(ds["mask"].values, dtype=bool)
+    data["mask"] = ("sample", bad)
+    attrs = {k: v for k, v in ds.attrs.items() if k not in ("flux_unit", "bunit", "BUNIT")}
+    return xr.Dataset(data, coords={"wavelength": ds["wavelength"]}, attrs=attrs)
 
 
 #: DER_SNR of spectra longer than this is the median over pieces this long (samples).
