@@ -18,12 +18,15 @@ from bokeh.events import RangesUpdate, Reset, Tap
 from bokeh.models import (
     BoxAnnotation,
     BoxEditTool,
+    BoxZoomTool,
     ColumnDataSource,
     CustomJS,
     Div,
     HoverTool,
     LabelSet,
+    PanTool,
     Range1d,
+    ResetTool,
     WheelZoomTool,
 )
 from bokeh.plotting import figure
@@ -247,14 +250,14 @@ class Slot:
         fig = figure(
             height=118, sizing_mode="stretch_width", output_backend="webgl",
             x_range=Range1d(0, 1), y_range=Range1d(0, 1.2),
-            tools="xpan,xbox_zoom,reset", active_drag="xpan",
+            tools="xpan", active_drag="xpan",
             toolbar_location="right", min_border_left=46, min_border_right=6,
             min_border_top=4, min_border_bottom=18, name=f"strip-{index}",
             background_fill_color=PAPER, border_fill_color="white",
         )
         fig.toolbar.logo = None
         # Ctrl + wheel zooms; the plain wheel keeps scrolling the page of strips.
-        wheel = WheelZoomTool(dimensions="width", modifiers={"ctrl": True})
+        wheel = WheelZoomTool(dimensions="width", modifiers={"ctrl": True}, visible=False)
         fig.add_tools(wheel)
         fig.toolbar.active_scroll = wheel
         fig.grid.grid_line_color = RULE
@@ -266,8 +269,11 @@ class Slot:
         band = fig.vstrip(x0="x0", x1="x1", source=self.ksrc, fill_color=FOCUS, fill_alpha=0.22,
                           line_color=FOCUS, line_alpha=0.6, line_width=1)
         # Marks: pick the mark tool, Shift + drag to add, drag to move, click + Backspace to delete.
-        fig.add_tools(BoxEditTool(renderers=[band], empty_value=-1, description="mark a range "
-                                  "(Shift + drag adds; click and Backspace deletes)"))
+        # toolbar: pan, mark, box zoom, reset (hover and Ctrl + wheel work without buttons)
+        self.box_edit = BoxEditTool(renderers=[band], empty_value=-1, description="mark a range "
+                                    "(Shift + drag adds; click and Backspace deletes)")
+        fig.add_tools(self.box_edit, BoxZoomTool(dimensions="width"), ResetTool())
+        self.pan = fig.select_one({"type": PanTool})
         fig.add_layout(LabelSet(x="x0", y=-4, y_units="screen", text="note", source=self.ksrc,
                                 text_font_size="10px", text_color="#6b4e00", x_offset=3,
                                 text_baseline="bottom", background_fill_color="white",
@@ -286,9 +292,9 @@ class Slot:
         fig.add_tools(HoverTool(renderers=[mr], tooltips=[
             ("line", "@species"), ("rest air", "@air_A{0.000} Å"),
             ("rest vacuum", "@vacuum_A{0.000} Å"), ("strength", "@strength"),
-            ("EW", "@ew")], point_policy="follow_mouse"))
+            ("EW", "@ew")], point_policy="follow_mouse", visible=False))
         fig.add_tools(HoverTool(renderers=[fr], tooltips=[
-            ("feature", "@species"), ("rest vacuum", "@rest"), ("EW", "@ew")]))
+            ("feature", "@species"), ("rest vacuum", "@rest"), ("EW", "@ew")], visible=False))
         fig.js_on_event("mousemove", CustomJS(
             args={"src": self.src, "conv": self.conv, "meta": viewer.meta, "out": viewer.readout},
             code=READOUT_JS))
@@ -388,6 +394,10 @@ class Viewer:
                                                placeholder="6550-6575 Hα wing", sizing_mode="stretch_width",
                                                css_classes=["striae-mark-add"])
         self.w_mark_add.param.watch(lambda e: self.add_mark_text(e.new), "value")
+        # then Shift + drag across a strip; drag a band to move it, click it and Backspace deletes
+        self.w_mark_mode = pn.widgets.Toggle(label="✎ mark with the mouse", value=False,
+                                             sizing_mode="stretch_width")
+        self.w_mark_mode.param.watch(lambda e: self.set_mark_mode(e.new), "value")
         self.w_mark_pick = pn.widgets.Select(label="Marks", options={"(no marks)": -1}, value=-1,
                                              sizing_mode="stretch_width")
         self.w_mark_pick.param.watch(lambda e: self._show_mark_note(), "value")
@@ -512,10 +522,12 @@ class Viewer:
             self.w_star, self.card, self.w_compare, self.w_jump,
             label("Frame"), self.w_frame, label("Wavelengths in"), self.w_medium, self.w_unit,
             label("Flux"), self.w_flux, self.w_lines, self.w_strength, self.w_per_page,
-            self.w_mark_add, self.w_mark_pick, self.w_mark_note, pn.Row(self.w_mark_save, self.w_mark_del),
+            self.w_mark_add, self.w_mark_mode, self.w_mark_pick, self.w_mark_note, pn.Row(self.w_mark_save, self.w_mark_del),
             pn.pane.HTML('<div style="font-size:11px;color:#5a6275">Keys: ↓/→ next strip, ↑/← previous,'
                          ' PageDown/PageUp pages, Home/End. Drag to pan, box tool or'
-                         ' Ctrl + wheel to zoom; the reset tool shows the whole strip again.</div>', margin=(6, 10)),
+                         ' Ctrl + wheel to zoom; the reset tool shows the whole strip again.'
+                         ' Marking with the mouse: Shift + drag across a strip adds a mark, drag a'
+                         ' band to move it, click it and press Backspace to delete it.</div>', margin=(6, 10)),
             width=290, styles={"background": "#f3efe4", "border-right": f"1px solid {RULE}"},
             scroll=True, sizing_mode="stretch_height",
         )
@@ -526,6 +538,8 @@ class Viewer:
         new = []
         while len(self.slots) < min(n, PER_PAGE_MAX):
             slot = Slot(len(self.slots), self)
+            if getattr(self, "w_mark_mode", None) is not None and self.w_mark_mode.value:
+                slot.fig.toolbar.active_drag = slot.box_edit
             self.slots.append(slot)
             new.append(pn.pane.Bokeh(slot.fig, sizing_mode="stretch_width", margin=(0, 0, 2, 0)))
         if new:
@@ -574,6 +588,12 @@ class Viewer:
     def choose_star(self, star_id):
         if star_id and star_id != self.state.star:
             self.state.param.update(star=star_id, page=1, lo=None, hi=None, compare="")
+
+    def set_mark_mode(self, on: bool):
+        """Mouse marking: make each strip's mark tool (or pan, when off) the active drag."""
+        with pn.io.hold():
+            for slot in self.slots:
+                slot.fig.toolbar.active_drag = slot.box_edit if on else slot.pan
 
     def add_mark_text(self, text: str):
         """Add a typed mark such as ``6550-6575 Hα wing`` (axis unit unless one is given)."""

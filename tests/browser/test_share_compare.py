@@ -4,6 +4,7 @@ together and the URL follows."""
 
 from __future__ import annotations
 
+import json
 import time
 from urllib.parse import parse_qs
 
@@ -154,4 +155,36 @@ def test_copy_link_copies_the_whole_address_or_shows_it_selected(server, chromiu
         page.evaluate(FIND_LINK)), timeout=10)
     assert shown and shown["value"] == href, page.evaluate(FIND_LINK)
     assert dialogs == []
+    ctx.close()
+
+
+def test_marking_with_the_mouse_then_writing_a_note(server, chromium, view_tools):
+    ctx = chromium.new_context(viewport={"width": 1400, "height": 900})
+    page = ctx.new_page()
+    view_tools.open_view(page, server["url"], "?star=test-star-a&per_page=2")
+    page.get_by_role("button", name="✎ mark with the mouse").click()
+    page.wait_for_timeout(800)
+    r = page.evaluate(RECT, "strip-0")
+    y = r["y"] + r["h"] * 0.5
+    page.keyboard.down("Shift")
+    page.mouse.move(r["x"] + r["w"] * 0.3, y)
+    page.mouse.down()
+    for k in range(1, 11):
+        page.mouse.move(r["x"] + r["w"] * (0.3 + 0.02 * k), y)
+        time.sleep(0.03)
+    page.mouse.up()
+    page.keyboard.up("Shift")
+    q = view_tools.wait_for(lambda: (lambda qq: qq if "marks" in qq else None)(query(page)))
+    assert q, query(page)
+    (a, b, note), = json.loads(q["marks"])
+    strip = page.evaluate(READ, ["strip-0"])["strip-0"]
+    span = strip["end"] - strip["start"]
+    assert a < b and note == ""
+    assert strip["start"] + 0.15 * span < a < strip["start"] + 0.45 * span  # where the drag began
+    field = page.get_by_label("Note of the chosen mark")
+    field.fill("drawn by hand")
+    field.press("Enter")
+    page.get_by_role("button", name="save note").click()
+    q = view_tools.wait_for(lambda: (lambda qq: qq if "drawn by hand" in qq.get("marks", "") else None)(query(page)))
+    assert q, query(page)
     ctx.close()
