@@ -130,6 +130,11 @@ def _bin_row(w, f, s, bad, medium, step_kms, bands, x0, dln, n):
     return num, den
 
 
+#: Wavelength range (Å, vacuum) the template fit uses: where the class templates have
+#: their H I, He I, He II and metal lines (the shipped list's optical range; our choice).
+FIT_RANGE_A = (3600.0, 10_000.0)
+
+
 def _bin_spectrum(wave_A, flux, uncertainty, mask, continuum, medium, step_kms, bands, chunk_kms):
     """Chunks of binned flux on vacuum ln(lambda) grids: list of (x, value, ivar).
 
@@ -155,6 +160,7 @@ def _bin_spectrum(wave_A, flux, uncertainty, mask, continuum, medium, step_kms, 
         bad = ~np.isfinite(f) | ~np.isfinite(w) | (w <= 0)
         if mask is not None:
             bad |= np.asarray((mask[k] if two_d else mask)[o], dtype=bool)
+        bad |= (w < FIT_RANGE_A[0]) | (w > FIT_RANGE_A[1])
         if (~bad).sum() < 20:
             continue
         if two_d:
@@ -170,7 +176,8 @@ def _bin_spectrum(wave_A, flux, uncertainty, mask, continuum, medium, step_kms, 
             if uncertainty is not None:
                 s = np.asarray((uncertainty[k] if two_d else uncertainty)[o], dtype=np.float64) / np.abs(c)
         del c
-        lo, hi = float(w[~bad][0]), float(w[~bad][-1])
+        good_i = np.flatnonzero(~bad)
+        lo, hi = float(w[good_i[0]]), float(w[good_i[-1]])
         if medium != "vacuum":
             lo, hi = (float(v) for v in air_to_vacuum_A(np.array([lo, hi])))
         x0 = math.log(lo) - dln
@@ -280,14 +287,16 @@ def template_rv(wave_A, flux, uncertainty=None, mask=None, *, continuum=None,
     chunks = _bin_spectrum(wave_A, flux, uncertainty, mask, continuum, medium, step_kms, bands,
                            chunk_kms)
     if not chunks:
-        return RVResult(None, None, note="too few good samples for the template fit", method="template")
+        return RVResult(None, None, method="template",
+                        note=f"too few good samples for the template fit between {FIT_RANGE_A[0]:g} and {FIT_RANGE_A[1]:g} Å")
     two_d = np.asarray(wave_A).ndim == 2
     fitter = _Fitter(chunks, ORDER_DEGREE if two_d else 2)
     r_inst = float(resolving_power) if resolving_power and resolving_power > 0 else C_KMS / (4 * step_kms)
     r_inst = float(10 ** (round(math.log10(r_inst) * 20) / 20))  # shared cached templates
     pad = 1.0 + (max(abs(v_min_kms), abs(v_max_kms)) + 1500.0) / C_KMS
-    lo_A = math.floor(float(fitter.lo_A.min()) / pad / 50.0) * 50.0
-    hi_A = math.ceil(float(fitter.hi_A.max()) * pad / 50.0) * 50.0
+    # rounded out to 500 Å so stars of similar coverage share the cached bank
+    lo_A = math.floor(float(fitter.lo_A.min()) / pad / 500.0) * 500.0
+    hi_A = math.ceil(float(fitter.hi_A.max()) * pad / 500.0) * 500.0
     tgrid, bank = _template_bank(lo_A, hi_A, step_kms, r_inst, tuple(classes))
     tx = np.log(tgrid)
     t_step = (tx[-1] - tx[0]) / (tx.size - 1) * C_KMS
