@@ -99,6 +99,8 @@ def serve(atlas_path, port: int = 5006, address: str = "127.0.0.1", procs: int =
           show: bool = False):
     """Serve the atlas until interrupted (blocks)."""
     open_view_atlas(atlas_path)  # fail early, with a one-line error, on a bad atlas
+    if procs > 1:
+        _stop_workers_with_parent()
     pn.extension(notifications=False)
     origins = [f"{address}:{port}", f"localhost:{port}", f"127.0.0.1:{port}"]
     pn.serve(
@@ -106,3 +108,25 @@ def serve(atlas_path, port: int = 5006, address: str = "127.0.0.1", procs: int =
         port=port, address=address, num_procs=procs, show=show, title=TITLE,
         websocket_origin=origins, start=True, print_url=False,
     )
+
+
+def _stop_workers_with_parent() -> None:
+    """On SIGTERM, stop the forked server processes too, then exit.
+
+    The handler is inherited by the forked workers (where it finds no children
+    and just exits), so a ``kill PARENT`` leaves no worker serving the port.
+    """
+    import signal
+    import sys
+
+    import psutil
+
+    def _stop(signum, frame):
+        for child in psutil.Process().children(recursive=True):
+            try:
+                child.terminate()
+            except psutil.Error:
+                pass
+        sys.exit(0)
+
+    signal.signal(signal.SIGTERM, _stop)

@@ -3,18 +3,16 @@
 from __future__ import annotations
 
 import json
+import signal
+import socket
+import subprocess
+import sys
+import time
 
+import psutil
 import pytest
 
-
-def assert_one_line_error(proc, *fragments):
-    """Exit 2, one line on stderr starting ``striae:``, no traceback (as tests/conftest.py)."""
-    assert proc.returncode == 2, (proc.returncode, proc.stderr)
-    lines = [ln for ln in proc.stderr.splitlines() if ln.strip()]
-    assert len(lines) == 1 and lines[0].startswith("striae: "), proc.stderr
-    assert "Traceback" not in proc.stderr
-    for frag in fragments:
-        assert frag in lines[0], (frag, lines[0])
+from tests.conftest import assert_one_line_error
 
 
 def test_missing_atlas(run_striae, tmp_path):
@@ -38,3 +36,37 @@ def test_unreadable_catalog(run_striae, tmp_path):
 @pytest.mark.parametrize("args,where", [(["--port", "0"], "--port"), (["--procs", "0"], "--procs")])
 def test_bad_options(run_striae, built_atlas, args, where):
     assert_one_line_error(run_striae("serve", built_atlas, *args), where)
+
+
+def _free_port() -> int:
+    with socket.socket() as sock:
+        sock.bind(("127.0.0.1", 0))
+        return sock.getsockname()[1]
+
+
+@pytest.mark.slow
+def test_stopping_the_parent_stops_every_server_process(built_atlas):
+    port = _free_port()
+    proc = subprocess.Popen(
+        [sys.executable, "-m", "atlas", "serve", str(built_atlas), "--port", str(port),
+         "--procs", "2"],
+        stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL, start_new_session=True,
+    )
+    try:
+        parent = psutil.Process(proc.pid)
+        deadline = time.monotonic() + 60
+        while len(parent.children()) < 2 and time.monotonic() < deadline:
+            time.sleep(0.2)
+        workers = parent.children()
+        assert len(workers) == 2, "the server did not fork two workers"
+        proc.send_signal(signal.SIGTERM)
+        proc.wait(timeout=30)
+        gone, alive = psutil.wait_procs(workers, timeout=30)
+        assert not alive, f"workers still running after SIGTERM to the parent: {alive}"
+    finally:
+        try:
+            import os
+
+            os.killpg(proc.pid, signal.SIGKILL)
+        except ProcessLookupError:
+            pass
