@@ -32,7 +32,6 @@ from __future__ import annotations
 
 import math
 import os
-import re
 import tempfile
 from collections.abc import Iterator, Mapping, Sequence
 from dataclasses import dataclass, field, replace
@@ -45,14 +44,8 @@ from atlas import __version__
 from atlas.errors import InputError
 from atlas.export_parts import LineMarker, MarkBand, PageText, StripData
 from atlas.frames import Frame
+from atlas.view import FLUXES, FRAMES, MEDIA, UNITS, is_species, is_star_id
 
-SLUG = re.compile(r"^[a-z0-9][a-z0-9-]{0,63}$")
-SPECIES = re.compile(r"^[A-Za-z][A-Za-z0-9]{0,7}( [IVX]{1,4})?$")
-
-FRAMES = ("observed", "barycentric", "rest")
-MEDIA = ("air", "vacuum")
-UNITS = ("A", "nm")
-FLUXES = ("normalized", "raw")
 PAPERS = ("a4", "letter")
 
 #: The view-state names an export understands (others, e.g. ``compare``, are ignored).
@@ -140,7 +133,7 @@ def _species(value) -> tuple[str, ...]:
         s = " ".join(str(it).split())
         if not s:
             continue
-        if not SPECIES.match(s):
+        if not is_species(s):
             raise InputError("lines", f"{s[:40]!r} is not a species name like 'Fe I' or 'TiO'")
         if s not in out:
             out.append(s)
@@ -187,7 +180,7 @@ def make_view(view: Mapping | None = None, **kw) -> ExportView:
     if star is None or str(star).strip() == "":
         raise InputError("star", "no star given")
     star = str(star).strip()
-    if not SLUG.match(star):
+    if not is_star_id(star):
         raise InputError("star", f"{star[:40]!r} is not a star id (lower-case letters, digits, '-')")
     lo, hi = _number(raw.get("lo"), "lo"), _number(raw.get("hi"), "hi")
     if (lo is None) != (hi is None):

@@ -22,8 +22,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from atlas.physics import airvac, doppler
-
-FRAMES = ("observed", "barycentric", "rest")
+from atlas.view import FRAMES  # noqa: F401  (re-exported)
 
 
 def scale(unit: str) -> float:

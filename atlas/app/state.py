@@ -42,13 +42,7 @@ from typing import Any
 
 import param
 
-SLUG = re.compile(r"^[a-z0-9][a-z0-9-]{0,63}$")
-SPECIES = re.compile(r"^[A-Za-z][A-Za-z0-9]{0,7}( [IVX]{1,4})?$")
-
-FRAMES = ("observed", "barycentric", "rest")
-MEDIA = ("air", "vacuum")
-UNITS = ("A", "nm")
-FLUXES = ("normalized", "raw")
+from atlas.view import FLUXES, FRAMES, MEDIA, UNITS, is_species, is_star_id
 
 #: Bounds of the incoming values (the app clamps lo/hi further to the star's range).
 WAVE_MIN_A, WAVE_MAX_A = 100.0, 1.0e6
@@ -109,7 +103,7 @@ def parse_id(v: Any, ids: Sequence[str], what: str) -> str:
     s = _text(v).lower()
     if s == "":
         return ""
-    if not SLUG.match(s):
+    if not is_star_id(s):
         raise Bad(f"{what}: {s[:40]!r} is not a star id")
     if s not in ids:
         raise Bad(f"{what}: no star {s!r} in this atlas")
@@ -173,7 +167,7 @@ def parse_species(v: Any) -> list[str]:
     out = []
     for it in items:
         s = " ".join(str(it).split())
-        if not SPECIES.match(s):
+        if not is_species(s):
             raise Bad(f"lines: {s[:40]!r} is not a species name")
         if s not in out:
             out.append(s)
