@@ -217,15 +217,15 @@ FrameMap = Frame
 
 def frame_for(view: ExportView, record: Mapping) -> FrameMap:
     """The FrameMap of a view for a star record; InputError when the frame is unavailable."""
-    rv, bary = _finite_or_none(record.get("rv_kms")), _finite_or_none(record.get("barycentric_kms"))
-    if view.frame == "barycentric" and bary is None:
+    fmap = Frame.of_record(view.frame, view.medium, record, view.unit)
+    if view.frame == "barycentric" and fmap.bary_kms is None:
         raise InputError("frame", f"star {view.star!r} has no barycentric correction (its file "
                          "lacks time, site or coordinates); use frame observed")
-    if view.frame == "rest" and rv is None:
+    if view.frame == "rest" and not fmap.has_star_velocity():
         raise InputError("frame", f"star {view.star!r} has no measured radial velocity, so "
                          "there is no rest frame; use frame observed"
-                         + (" or barycentric" if bary is not None else ""))
-    return Frame(view.frame, view.medium, rv, bary, view.unit)
+                         + (" or barycentric" if fmap.bary_kms is not None else ""))
+    return fmap
 
 
 def _finite_or_none(x) -> float | None:

@@ -10,7 +10,9 @@ air and vacuum from :mod:`atlas.physics.airvac`.
 Wright & Eastman (2014, PASP 126, 838) do (v_true = v_obs + v_bary + v_obs v_bary / c).
 ``rest``: lambda_rest = lambda_bary / D(rv), ``rv_kms`` being the star's barycentric
 radial velocity.  With ``barycentric_kms`` unknown the barycentric frame equals the
-observed one; with ``rv_kms`` unknown the rest frame shows no RV shift.
+observed one, and stellar lines are placed by ``rv_obs_kms`` (the velocity measured in
+the observer's frame, before any barycentric correction) when the catalog has it; with
+no velocity at all the rest frame shows no RV shift.
 
 Plain numpy, no user interface: used by :mod:`atlas.app` and :mod:`atlas.export`.
 """
@@ -39,16 +41,27 @@ class Frame:
     rv_kms: float | None = None
     bary_kms: float | None = None
     unit: str = "A"
+    rv_obs_kms: float | None = None
+
+    @property
+    def k_star(self) -> float:
+        """lambda_observed / lambda_rest for the star's own lines (1 when no velocity is known)."""
+        if self.rv_kms is not None and self.bary_kms is not None:
+            return float(doppler.factor(self.rv_kms) / doppler.factor(self.bary_kms))
+        if self.rv_obs_kms is not None:
+            return float(doppler.factor(self.rv_obs_kms))
+        if self.rv_kms is not None:
+            return float(doppler.factor(self.rv_kms))
+        return 1.0
 
     @property
     def k(self) -> float:
         """lambda_display_vacuum / lambda_observed_vacuum."""
         if self.frame == "observed":
             return 1.0
-        k = doppler.factor(self.bary_kms) if self.bary_kms is not None else 1.0
-        if self.frame == "rest" and self.rv_kms is not None:
-            k /= doppler.factor(self.rv_kms)
-        return float(k)
+        if self.frame == "rest":
+            return 1.0 / self.k_star
+        return float(doppler.factor(self.bary_kms)) if self.bary_kms is not None else 1.0
 
     @property
     def scale(self) -> float:
@@ -79,16 +92,32 @@ class Frame:
         """
         rest = np.asarray(rest_vac_A, dtype=np.float64)
         tell = np.broadcast_to(np.asarray(telluric, dtype=bool), rest.shape)
-        k_star = doppler.factor(self.rv_kms) if self.rv_kms is not None else 1.0
-        if self.bary_kms is not None:
-            k_star /= doppler.factor(self.bary_kms)
-        return np.where(tell, rest, rest * float(k_star))
+        return np.where(tell, rest, rest * self.k_star)
 
     def rest_vac_to_display_A(self, rest_vac_A, telluric=False):
         """Where a line of rest vacuum wavelength (Å) appears in the displayed frame."""
         return self.to_display_A(self.line_obs_A(rest_vac_A, telluric))
 
+    @classmethod
+    def of_record(cls, frame: str, medium: str, record, unit: str = "A") -> Frame:
+        """The Frame of a star's catalog record (``rv_kms``, ``barycentric_kms``, ``rv_obs_kms``)."""
+        return cls(frame, medium, _finite(record.get("rv_kms")),
+                   _finite(record.get("barycentric_kms")), unit,
+                   _finite(record.get("rv_obs_kms")))
+
+    def has_star_velocity(self) -> bool:
+        """True when the star's lines can be placed by a measured velocity."""
+        return self.rv_kms is not None or self.rv_obs_kms is not None
+
     def words(self) -> str:
         """The axis words, e.g. ``wavelength (Å, air, barycentric frame)``."""
         unit = "nm" if self.unit == "nm" else "Å"
         return f"wavelength ({unit}, {self.medium}, {self.frame} frame)"
+
+
+def _finite(value) -> float | None:
+    try:
+        v = float(value)
+    except (TypeError, ValueError):
+        return None
+    return v if np.isfinite(v) else None

@@ -9,6 +9,7 @@ pixel from :mod:`atlas.lod` (real samples when zoomed in far enough).
 
 from __future__ import annotations
 
+import dataclasses
 import html
 import math
 
@@ -551,7 +552,7 @@ class Viewer:
 
     def frame(self) -> Frame:
         rec = self.record()
-        return Frame(self.state.frame, self.state.medium, rec.get("rv_kms"), rec.get("barycentric_kms"))
+        return Frame.of_record(self.state.frame, self.state.medium, rec)
 
     def n_strips(self) -> int:
         return len(self.data.strip_bounds(self.state.star)[0])
@@ -946,8 +947,7 @@ class Viewer:
         # Keep the zoom window on the same stretch when the frame or medium changes.
         if changed & {"frame", "medium"} and st.lo is not None and st.hi is not None:
             rec = self.record()
-            before = Frame(old.get("frame", st.frame), old.get("medium", st.medium),
-                           rec.get("rv_kms"), rec.get("barycentric_kms"))
+            before = Frame.of_record(old.get("frame", st.frame), old.get("medium", st.medium), rec)
             stored = before.from_display_A(np.array([st.lo, st.hi]))
             lo, hi = (float(v) for v in self.frame().to_display_A(stored))
             self._busy = True
@@ -957,8 +957,7 @@ class Viewer:
                 self._busy = False
         if changed & {"frame", "medium"} and st.marks:
             rec = self.record()
-            before = Frame(old.get("frame", st.frame), old.get("medium", st.medium),
-                           rec.get("rv_kms"), rec.get("barycentric_kms"))
+            before = Frame.of_record(old.get("frame", st.frame), old.get("medium", st.medium), rec)
             moved = []
             for a, b, note in st.marks:
                 x = self.frame().to_display_A(before.from_display_A(np.array([a, b])))
@@ -989,7 +988,7 @@ class Viewer:
         if self.state.frame == "barycentric" and rec.get("barycentric_kms") is None:
             return ("No barycentric correction is known for this star (the file lacked time, site or "
                     "coordinates): the barycentric frame equals the observed frame here.")
-        if self.state.frame == "rest" and rec.get("rv_kms") is None:
+        if self.state.frame == "rest" and not self.frame().has_star_velocity():
             return "No radial velocity is measured for this star: the rest frame shows no RV shift."
         return ""
 
@@ -1153,8 +1152,8 @@ class Viewer:
         finally:
             self._drawing = False
         d = np.linspace(s0 - 1.0, s1 + 1.0, 33)
-        vac = Frame(st.frame, "vacuum", fr.rv_kms, fr.bary_kms).to_display_A(fr.from_display_A(d))
-        air = Frame(st.frame, "air", fr.rv_kms, fr.bary_kms).to_display_A(fr.from_display_A(d))
+        vac = dataclasses.replace(fr, medium="vacuum").to_display_A(fr.from_display_A(d))
+        air = dataclasses.replace(fr, medium="air").to_display_A(fr.from_display_A(d))
         slot.conv.data = {"d": d, "vac": vac, "air": air}
         slot.fig.xaxis.axis_label = None
 
@@ -1194,7 +1193,7 @@ class Viewer:
     # ----------------------------------------------------------------- compare
     def compare_frame(self) -> Frame:
         rec = self.data.record(self.state.compare)
-        return Frame(self.state.frame, self.state.medium, rec.get("rv_kms"), rec.get("barycentric_kms"))
+        return Frame.of_record(self.state.frame, self.state.medium, rec)
 
     def compare_window(self) -> tuple[float, float] | None:
         """The stretch compared (displayed Å): the zoom window, else the page's first strip."""

@@ -48,6 +48,28 @@ def test_stellar_lines_move_with_the_star_and_telluric_lines_do_not():
     assert x[1] == 6000.0
 
 
+def test_without_a_barycentric_correction_lines_follow_the_observed_velocity():
+    # A star whose file lacked time/site/coordinates: the catalog has rv_obs_kms only.
+    # Its lines sit at rest x D(rv_obs) in the stored frame (relativistic factor from
+    # astropy.units.doppler_relativistic), and its rest frame divides that out.
+    rec = {"rv_kms": None, "barycentric_kms": None, "rv_obs_kms": -57.0}
+    obs = Frame.of_record("observed", "vacuum", rec)
+    np.testing.assert_allclose(obs.rest_vac_to_display_A([6000.0]), 6000.0 * _doppler(-57.0),
+                               rtol=1e-12)
+    rest = Frame.of_record("rest", "vacuum", rec)
+    np.testing.assert_allclose(rest.to_display_A([6000.0 * _doppler(-57.0)]), 6000.0, rtol=1e-12)
+    assert rest.has_star_velocity()
+    assert not Frame.of_record("rest", "vacuum", {"rv_obs_kms": float("nan")}).has_star_velocity()
+
+
+def test_with_both_velocities_the_barycentric_pair_wins_over_rv_obs():
+    # Wright & Eastman (2014): observed = rest x D(rv) / D(v_bary); rv_obs is only a fallback
+    rec = {"rv_kms": 12.0, "barycentric_kms": 8.0, "rv_obs_kms": 999.0}
+    fr = Frame.of_record("observed", "vacuum", rec)
+    np.testing.assert_allclose(fr.rest_vac_to_display_A([5000.0]),
+                               5000.0 * _doppler(12.0) / _doppler(8.0), rtol=1e-12)
+
+
 def test_in_the_rest_frame_in_air_a_line_sits_at_its_listed_air_wavelength(line_rows):
     # lines.csv air_A / vacuum_A columns (sources in the file's `source` column);
     # tolerance covers the air/vacuum formula differences between sources (0.02 Å)

@@ -57,7 +57,7 @@ def rv_atlas(small_atlas, tmp_path_factory):
 
 
 def test_rest_frame_needs_a_measured_velocity(small_atlas, tmp_path):
-    norv = _patched(small_atlas, tmp_path / "atlas", rv_kms=None, rv_err_kms=None)
+    norv = _patched(small_atlas, tmp_path / "atlas", rv_kms=None, rv_err_kms=None, rv_obs_kms=None)
     with pytest.raises(InputError, match="no measured radial velocity") as exc:
         ex.export_pdf(norv, ALPHA, tmp_path / "o.pdf", frame="rest")
     assert exc.value.where == "frame" and not (tmp_path / "o.pdf").exists()
