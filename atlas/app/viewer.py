@@ -502,9 +502,13 @@ class Viewer:
         self.cmp_box.extend([pn.pane.Bokeh(f, sizing_mode="stretch_width", margin=(0, 0, 2, 0)) for f in figs])
 
     def _build_layout(self):
-        nav = pn.Row(self.w_first, self.w_prev_page, self.w_prev_strip, self.w_next_strip,
-                     self.w_next_page, self.w_last, self.page_label, pn.layout.HSpacer(), self.w_whole,
-                     self.w_pdf, self.w_html, self.w_copy, sizing_mode="stretch_width", margin=0)
+        # Two groups that wrap onto a second line on narrow windows (nothing is cut off).
+        nav = pn.FlexBox(
+            pn.Row(self.w_first, self.w_prev_page, self.w_prev_strip, self.w_next_strip,
+                   self.w_next_page, self.w_last, self.page_label, margin=0),
+            pn.Row(self.w_whole, self.w_pdf, self.w_html, self.w_copy, margin=0),
+            flex_wrap="wrap", justify_content="space-between", align_items="center",
+            sizing_mode="stretch_width", margin=0)
         main = pn.Column(
             nav, self.w_link, self.notice,
             pn.pane.Bokeh(self.readout, sizing_mode="stretch_width", margin=(0, 4)),
