@@ -603,10 +603,33 @@ def measure_rv(
     if not ok:
         result.note = "no strip gave a velocity"
         return result
+    mean, err, use, chi2r = combine_strips(ok, clip_sigma)
+    if chi2r is not None:
+        if chi2r > 100.0 or (~use).sum() > 0.25 * use.size:
+            result.note = ("strips disagree (reduced chi-square "
+                           f"{chi2r:.0f}, {(~use).sum()} of {use.size} set aside): velocity unreliable")
+    if not (v_min_kms - 2 * pad <= mean <= v_max_kms + 2 * pad):
+        result.note = f"the velocity fit left the search range ({mean:+.0f} km/s)"
+        return result
+    result.rv_obs_kms = mean
+    result.rv_err_kms = err
+    result.photon_limit_kms = C_KMS / math.sqrt(info_total) if info_total > 0 else None
+    return result
+
+
+def combine_strips(ok, clip_sigma: float):
+    """Combine per-strip velocities (km/s) into one, setting outlier strips aside.
+
+    ``ok`` are strips with ``rv_kms`` and ``err_kms``.  A robust clip takes the residuals
+    from the inverse-variance weighted median in units of each strip's error, the
+    threshold scaled by their median absolute deviation when that exceeds 1; the kept
+    strips are averaged with inverse-variance weights and, with three or more, the error
+    is inflated by sqrt(reduced chi-square) when the strips scatter more than their
+    errors (common practice).  Marks the set-aside strips ``used = False``.
+    Returns ``(mean_kms, err_kms, used_mask, reduced_chi2 or None)``.
+    """
     rv = np.array([s.rv_kms for s in ok])
     er = np.array([s.err_kms for s in ok])
-    # robust clip: residuals from the weighted median in units of each strip's error,
-    # the threshold scaled by their median absolute deviation when that exceeds 1
     order_ = np.argsort(rv)
     cw = np.cumsum(1.0 / er[order_] ** 2)
     centre = float(rv[order_][np.searchsorted(cw, 0.5 * cw[-1])])
@@ -619,19 +642,11 @@ def measure_rv(
     w = 1.0 / er[use] ** 2
     mean = float((w * rv[use]).sum() / w.sum())
     err = math.sqrt(1.0 / w.sum())
+    chi2r = None
     if use.sum() >= 3:
         chi2r = float((((rv[use] - mean) / er[use]) ** 2).sum() / (use.sum() - 1))
         err *= max(1.0, math.sqrt(chi2r))
-        if chi2r > 100.0 or (~use).sum() > 0.25 * use.size:
-            result.note = ("strips disagree (reduced chi-square "
-                           f"{chi2r:.0f}, {(~use).sum()} of {use.size} set aside): velocity unreliable")
-    if not (v_min_kms - 2 * pad <= mean <= v_max_kms + 2 * pad):
-        result.note = f"the velocity fit left the search range ({mean:+.0f} km/s)"
-        return result
-    result.rv_obs_kms = mean
-    result.rv_err_kms = err
-    result.photon_limit_kms = C_KMS / math.sqrt(info_total) if info_total > 0 else None
-    return result
+    return mean, err, use, chi2r
 
 
 def vsini_rough(line_fwhm_kms: float | None, resolving_power: float | None) -> float | None:

@@ -40,6 +40,7 @@ from atlas.measure.rv import (
     ROT_FWHM_PER_VSINI,
     RVResult,
     StripRV,
+    combine_strips,
     der_noise,
     normalise,
 )
@@ -372,7 +373,7 @@ def template_rv(wave_A, flux, uncertainty=None, mask=None, *, continuum=None,
     if not signif >= min_significance:
         result.note = f"template fit: no significant chi-square minimum ({signif:.1f} sigma)"
         return result
-    strips, rvs, ers = [], [], []
+    strips = []
     for c in range(fitter.nch):
         st = StripRV(float(fitter.lo_A[c]), float(fitter.hi_A[c]), None, None, 0)
         strips.append(st)
@@ -385,31 +386,13 @@ def template_rv(wave_A, flux, uncertainty=None, mask=None, *, continuum=None,
         chi2r = float(curves[:, c].min() / dof)
         err = 1.0 / math.sqrt(a) * math.sqrt(max(chi2r, 1.0))
         st.rv_kms, st.err_kms = vm, err
-        rvs.append(vm)
-        ers.append(err)
     result.strips = strips
-    if not rvs:
+    if not any(st.rv_kms is not None for st in strips):
         result.note = "template fit: no chunk gave a velocity"
         return result
-    rv = np.array(rvs)
-    er = np.array(ers)
     ok = [s for s in strips if s.rv_kms is not None]
-    o = np.argsort(rv)
-    cw = np.cumsum(1.0 / er[o] ** 2)
-    centre = float(rv[o][np.searchsorted(cw, 0.5 * cw[-1])])
-    z = (rv - centre) / er
-    scale = max(1.0, 1.482602 * float(np.median(np.abs(z)))) if rv.size >= 3 else np.inf
-    use = np.abs(z) <= clip_sigma * scale
-    for s, u_ in zip(ok, use, strict=True):
-        if not u_:
-            s.used, s.note = False, "outlier (sigma clip)"
-    w = 1.0 / er[use] ** 2
-    mean = float((w * rv[use]).sum() / w.sum())
-    err = math.sqrt(1.0 / w.sum())
-    if use.sum() >= 3:
-        chi2r = float((((rv[use] - mean) / er[use]) ** 2).sum() / (use.sum() - 1))
-        err *= max(1.0, math.sqrt(chi2r))
-    elif use.sum() < 3:
+    mean, err, use, _ = combine_strips(ok, clip_sigma)
+    if use.sum() < 3:
         # one or two chunks cannot show their own scatter: the whole-spectrum curvature
         pm = _parabola_min(v_fine, tot)
         if pm is not None:
