@@ -173,20 +173,33 @@ def prepare(ds: xr.Dataset, options: BuildOptions):
     return seq, plan, notes
 
 
-def star_arrays(seq: dict, plan: StripPlan):
-    """The root group (strip, pixel) Dataset and the envelope levels of one star."""
-    pixel = plan.pixel
-    wav = gather(seq["wavelength"], plan, np.nan, np.float64)
-    flux = gather(seq["flux"], plan, np.nan, np.float32)
-    cont = gather(seq["continuum"], plan, np.nan, np.float32)
+def _sub_plan(plan: StripPlan, b0: int, b1: int) -> StripPlan:
+    """Strips ``b0:b1`` of a plan."""
+    return StripPlan(plan.start[b0:b1], plan.stop[b0:b1], plan.lo_A[b0:b1], plan.hi_A[b0:b1],
+                     plan.mode, plan.width)
+
+
+def star_block(seq: dict, plan: StripPlan, b0: int, b1: int, pixel: int | None = None):
+    """Strips ``b0:b1`` of the root group (strip, pixel) Dataset and of the envelope levels.
+
+    ``pixel`` is the whole star's strip length (default: the plan's); every strip's
+    arrays and envelopes depend only on its own samples, so blocks put side by side
+    equal :func:`star_arrays` of the whole star.
+    """
+    pixel = plan.pixel if pixel is None else pixel
+    sub = _sub_plan(plan, b0, b1)
+    n = sub.n_strips
+    wav = gather(seq["wavelength"], sub, np.nan, np.float64, pixel=pixel)
+    flux = gather(seq["flux"], sub, np.nan, np.float32, pixel=pixel)
+    cont = gather(seq["continuum"], sub, np.nan, np.float32, pixel=pixel)
     with np.errstate(divide="ignore", invalid="ignore"):
         norm = flux / cont
     norm[~(cont > 0)] = np.nan
-    mask = gather(seq["mask"], plan, True, bool)
+    mask = gather(seq["mask"], sub, True, bool, pixel=pixel)
     if seq.get("uncertainty") is not None:
-        unc = gather(seq["uncertainty"], plan, np.nan, np.float32)
+        unc = gather(seq["uncertainty"], sub, np.nan, np.float32, pixel=pixel)
     else:
-        unc = np.full((plan.n_strips, pixel), np.nan, dtype=np.float32)
+        unc = np.full((n, pixel), np.nan, dtype=np.float32)
     mask |= ~np.isfinite(flux)
     levels = build_levels(wav, flux, norm, mask)
     sp = ("strip", "pixel")
@@ -197,9 +210,9 @@ def star_arrays(seq: dict, plan: StripPlan):
             "continuum": (sp, cont),
             "norm_flux": (sp, norm),
             "mask": (sp, mask),
-            "strip_min_A": ("strip", np.asarray(plan.lo_A, dtype=np.float64)),
-            "strip_max_A": ("strip", np.asarray(plan.hi_A, dtype=np.float64)),
-            "strip_samples": ("strip", plan.count.astype(np.int32)),
+            "strip_min_A": ("strip", np.asarray(sub.lo_A, dtype=np.float64)),
+            "strip_max_A": ("strip", np.asarray(sub.hi_A, dtype=np.float64)),
+            "strip_samples": ("strip", sub.count.astype(np.int32)),
         },
         coords={"wavelength": (sp, wav, {"units": "Angstrom", "medium": "vacuum"})},
     )
@@ -213,6 +226,52 @@ def star_arrays(seq: dict, plan: StripPlan):
             )
         )
     return root, lev_ds
+
+
+def star_arrays(seq: dict, plan: StripPlan):
+    """The root group (strip, pixel) Dataset and the envelope levels of one star (all in memory)."""
+    return star_block(seq, plan, 0, plan.n_strips)
+
+
+#: Bytes aimed at per block of padded strips written at a time (all root variables together).
+BLOCK_BYTES = 32 * 2**20
+
+
+def _block_strips(pixel: int, n_strips: int, strips_per_chunk: int) -> int:
+    """Strips per written block: a multiple of 4 chunks (the envelope chunks), about BLOCK_BYTES."""
+    unit = 4 * strips_per_chunk
+    per_strip = 25 * max(pixel, 1)  # float64 wavelength, four float32 variables, bool mask
+    return unit * max(1, BLOCK_BYTES // (per_strip * unit))
+
+
+def write_star_arrays(atlas_url: str, name: str, seq: dict, plan: StripPlan, attrs: dict) -> int:
+    """Cut, normalise, envelope and store one star block by block; returns the envelope level count.
+
+    The store equals ``store.write_star`` of :func:`star_arrays` with ``attrs`` (plus
+    ``lod_levels``), but only one block of padded strips is in memory at a time.
+    """
+    pixel, n = plan.pixel, plan.n_strips
+    spc = _strips_per_chunk(pixel, n)
+    step = _block_strips(pixel, n, spc)
+    n_levels = []
+
+    def blocks():
+        for b0 in range(0, n, step):
+            b1 = min(n, b0 + step)
+            root, levels = star_block(seq, plan, b0, b1, pixel)
+            if not n_levels:
+                n_levels.append(len(levels))
+            root.attrs.update({**attrs, "lod_levels": len(levels)})
+            root.attrs = {k: v for k, v in root.attrs.items() if v is not None}
+            yield b0, b1, root, levels
+
+    per_strip = xr.Dataset({
+        "strip_min_A": ("strip", np.asarray(plan.lo_A, dtype=np.float64)),
+        "strip_max_A": ("strip", np.asarray(plan.hi_A, dtype=np.float64)),
+        "strip_samples": ("strip", plan.count.astype(np.int32)),
+    })
+    store.write_star_blocks(atlas_url, name, blocks(), n, spc, per_strip)
+    return n_levels[0]
 
 
 def _strips_per_chunk(pixel: int, n_strips: int) -> int:
@@ -244,37 +303,32 @@ def build_star(path: str, options: BuildOptions, atlas_url: str, sha: str, in_us
     seq, plan, notes = prepare(ds, options)
     n_samples = int(seq["wavelength"].size)
     wmin, wmax = float(np.min(seq["wavelength"])), float(np.max(seq["wavelength"]))
+    name = str(ds.attrs.get("target") or "").strip() or os.path.splitext(os.path.basename(path))[0]
+    slug = store.slugify(name, fallback=store.slugify(os.path.basename(path)))
+    attrs = {
+        "name": name,
+        "source": os.path.basename(path),
+        "source_sha256": sha,
+        "input_medium": medium_of(ds),
+        "strip_mode": plan.mode,
+        "strip_kms": plan.width if plan.mode == "velocity" else None,
+        "strip_A": plan.width if plan.mode == "equal_A" else None,
+        "overlap": options.overlap if plan.mode != "orders" else 0.0,
+        "continuum": json.dumps(options.continuum.as_dict()),
+        "lod_levels": None,  # filled in by write_star_arrays
+        "lod_factor": FACTOR,
+        "tool_version": __version__,
+    }
+    key = _content_key(sha, options, path)
+    sname = store.fresh_store_name(slug, key, atlas_url, set(in_use))
     # Store first, then measure: the two largest memory peaks never overlap.
-    root, levels = star_arrays(seq, plan)
+    write_star_arrays(atlas_url, sname, seq, plan, attrs)
     # echelle input: the orders' own continua (their blaze) normalise the merged spectrum
     # for the class and the features; other spectra are normalised inside the measurements
     cont = seq.pop("continuum")
     if not is_echelle(ds):
         del cont
         cont = None
-    name = str(ds.attrs.get("target") or "").strip() or os.path.splitext(os.path.basename(path))[0]
-    slug = store.slugify(name, fallback=store.slugify(os.path.basename(path)))
-    root.attrs.update(
-        {
-            "name": name,
-            "source": os.path.basename(path),
-            "source_sha256": sha,
-            "input_medium": medium_of(ds),
-            "strip_mode": plan.mode,
-            "strip_kms": plan.width if plan.mode == "velocity" else None,
-            "strip_A": plan.width if plan.mode == "equal_A" else None,
-            "overlap": options.overlap if plan.mode != "orders" else 0.0,
-            "continuum": json.dumps(options.continuum.as_dict()),
-            "lod_levels": len(levels),
-            "lod_factor": FACTOR,
-            "tool_version": __version__,
-        }
-    )
-    root.attrs = {k: v for k, v in root.attrs.items() if v is not None}
-    key = _content_key(sha, options, path)
-    sname = store.fresh_store_name(slug, key, atlas_url, set(in_use))
-    store.write_star(atlas_url, sname, root, levels, _strips_per_chunk(root.sizes["pixel"], root.sizes["strip"]))
-    del root, levels
     vac_vars = {"flux": ("sample", seq["flux"]), "mask": ("sample", seq["mask"])}
     if seq.get("uncertainty") is not None:
         vac_vars["uncertainty"] = ("sample", seq["uncertainty"])

@@ -152,6 +152,79 @@ def write_star(atlas_url: str, name: str, root: xr.Dataset, levels: list[xr.Data
         zarr.consolidate_metadata(url, zarr_format=3)
 
 
+def _template(ds: xr.Dataset, n_strips: int, chunks: dict) -> xr.Dataset:
+    """``ds`` with every variable replaced by lazy zeros of ``n_strips`` strips (layout only)."""
+    import dask.array as da
+
+    def lazy(v):
+        shape = (n_strips, *v.shape[1:])
+        ch = tuple(chunks.get(d, s) for d, s in zip(v.dims, shape, strict=True))
+        return xr.Variable(v.dims, da.zeros(shape, dtype=v.dtype, chunks=ch), attrs=v.attrs)
+
+    return xr.Dataset({k: lazy(v.variable) for k, v in ds.data_vars.items()},
+                      coords={k: lazy(v.variable) for k, v in ds.coords.items()}, attrs=ds.attrs)
+
+
+def write_star_blocks(atlas_url: str, name: str, blocks, n_strips: int, strips_per_chunk: int,
+                      per_strip: xr.Dataset) -> None:
+    """Write one star store block by block; the same store :func:`write_star` writes.
+
+    ``blocks`` yields ``(b0, b1, root, levels)``: strips ``b0:b1`` of the root group and of
+    each envelope level, in order and covering every strip; every ``b0`` is a multiple of
+    ``4 * strips_per_chunk`` so no Zarr chunk is shared between two blocks.  The arrays'
+    layout is created from the first block (``to_zarr(compute=False)`` of a lazy
+    template), each block is written into its strips of the Zarr arrays, and the metadata is consolidated
+    at the end, so only one block of padded strips is in memory at a time.
+    ``per_strip`` holds the root group's 1-D (strip) variables for every strip: they are
+    small and written whole, with the chunking :func:`write_star` gives them.
+    """
+    import zarr
+
+    url = join(atlas_url, name)
+    fs, path = _fs(url)
+    if fs.exists(path):
+        fs.rm(path, recursive=True)
+    comp = _compressors()
+    lev_rows = min(n_strips, strips_per_chunk * 4)
+    first = True
+    for b0, b1, root, levels in blocks:
+        if first:
+            pixel = root.sizes["pixel"]
+            enc = {v: {"chunks": (strips_per_chunk, pixel), "compressors": comp}
+                   for v in root.data_vars if root[v].dims == ("strip", "pixel")}
+            enc["wavelength"] = {"chunks": (strips_per_chunk, pixel), "compressors": comp}
+            tmpl = _template(root.drop_vars(list(per_strip.data_vars)), n_strips, {"strip": strips_per_chunk})
+            tmpl = tmpl.assign(per_strip.data_vars)[list(root.data_vars)]
+            tmpl.to_zarr(
+                url, mode="w", zarr_format=3, consolidated=False, encoding=enc, compute=False)
+            for j, lev in enumerate(levels, start=1):
+                nb = lev.sizes["bin"]
+                lenc = {v: {"chunks": (lev_rows, nb), "compressors": comp} for v in lev.data_vars}
+                _template(lev, n_strips, {"strip": lev_rows}).to_zarr(
+                    url, group=f"lod{j}", mode="w", zarr_format=3, consolidated=False, encoding=lenc,
+                    compute=False)
+            first = False
+            group = zarr.open_group(url, mode="r+", zarr_format=3)
+            arrays = {(0, k): group[k] for k in root.variables if k not in per_strip}
+            arrays.update({(j, k): group[f"lod{j}"][k]
+                           for j, lev in enumerate(levels, start=1) for k in lev.data_vars})
+        # The variables keep their own dtypes on disk (no CF encoding changes their
+        # values), so each block goes straight to its Zarr arrays: faster than an
+        # xarray ``region=`` write per block, which reopens the group each time.
+        blocks_vars = [(0, root.variables)] + [(j, lev.data_vars) for j, lev in enumerate(levels, start=1)]
+        for j, variables in blocks_vars:
+            for k, v in variables.items():
+                if k in per_strip and j == 0:
+                    continue
+                arr = arrays[(j, k)]
+                if arr.dtype != v.dtype:  # would need xarray's encoding: never silently differ
+                    raise TypeError(f"{k}: stored as {arr.dtype}, block is {v.dtype}")
+                arr[b0:b1] = np.asarray(v.values)
+    with warnings.catch_warnings():
+        warnings.filterwarnings("ignore", message="Consolidated metadata", category=UserWarning)
+        zarr.consolidate_metadata(url, zarr_format=3)
+
+
 def write_features(atlas_url: str, name: str, features: xr.Dataset) -> None:
     """Write the ``features`` group of a star store (dimension ``feature``) and re-consolidate."""
     import zarr

@@ -276,3 +276,43 @@ def test_only_bad_files_commit_nothing(tmp_path, capsys, three):
     assert_one_line_error(proc, str(bad))
     assert (out / "atlas.json").read_bytes() == before  # the old atlas is untouched
     assert open_atlas(out).ids == ["star-0"]
+
+
+@pytest.mark.parametrize("unc", [False, True])
+def test_block_by_block_store_equals_the_whole_star_store(tmp_path, monkeypatch, unc):
+    """The streamed writer (small blocks forced) stores the same arrays, metadata and attributes."""
+    import zarr
+
+    from atlas import build
+    from atlas.store import write_star
+
+    rng = np.random.default_rng(11)
+    wave = 5000.0 * np.exp(np.arange(120_000) * 2e-6)
+    flux = rng.normal(100, 5, wave.size)
+    flux[rng.integers(0, wave.size, 300)] = np.nan
+    spec = make_spectrum(wave, flux, uncertainty=np.full(wave.size, 2.0) if unc else None, medium="vacuum")
+    seq, plan, _ = prepare(spec, BuildOptions(strip_kms=30.0))
+    attrs = {"name": "Block Test", "strip_kms": 30.0, "strip_A": None, "lod_levels": None, "lod_factor": 4}
+    root, levels = star_arrays(seq, plan)
+    root.attrs.update({**attrs, "lod_levels": len(levels)})
+    root.attrs = {k: v for k, v in root.attrs.items() if v is not None}
+    spc = build._strips_per_chunk(root.sizes["pixel"], root.sizes["strip"])
+    write_star(str(tmp_path), "stars/whole.zarr", root, levels, spc)
+    per_block = 4 * spc * 25 * plan.pixel
+    monkeypatch.setattr(build, "BLOCK_BYTES", 3 * per_block)  # 3 envelope chunks per block
+    assert plan.n_strips > 3 * 4 * spc  # so more than one block, the last one short
+    n_levels = build.write_star_arrays(str(tmp_path), "stars/blocks.zarr", seq, plan, attrs)
+    assert n_levels == len(levels)
+    a = zarr.open_group(str(tmp_path / "stars/whole.zarr"), mode="r")
+    b = zarr.open_group(str(tmp_path / "stars/blocks.zarr"), mode="r")
+    assert dict(a.attrs) == dict(b.attrs)
+    groups = ["", *[f"lod{j}" for j in range(1, len(levels) + 1)]]
+    for g in groups:
+        ga, gb = (a[g], b[g]) if g else (a, b)
+        assert dict(ga.attrs) == dict(gb.attrs)
+        assert sorted(ga.array_keys()) == sorted(gb.array_keys())
+        for k in ga.array_keys():
+            xa, xb = ga[k], gb[k]
+            assert xa.metadata.to_dict() == xb.metadata.to_dict(), (g, k)
+            va, vb = xa[...], xb[...]
+            assert va.tobytes() == vb.tobytes(), (g, k)  # bit for bit, NaN padding included
