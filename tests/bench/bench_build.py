@@ -156,7 +156,11 @@ base = psutil.Process().memory_info().rss
 t0 = time.perf_counter()
 rep = build_atlas([sys.argv[1]], sys.argv[2], progress=False, out=open(os.devnull, "w"))
 t = time.perf_counter() - t0
-peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss * 1024
+try:  # this process's own high-water mark; ru_maxrss can carry the parent's over fork + exec
+    with open("/proc/self/status") as fh:
+        peak = next(int(x.split()[1]) * 1024 for x in fh if x.startswith("VmHWM:"))
+except (OSError, StopIteration):
+    peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss * 1024
 size = read(sys.argv[1]).nbytes
 print(json.dumps({"base": base, "peak": peak, "size": size, "seconds": t, "ok": rep.committed}))
 """
