@@ -44,6 +44,7 @@ from atlas import __version__
 from atlas.errors import InputError
 from atlas.export_parts import LineMarker, MarkBand, PageText, StripData
 from atlas.frames import Frame
+from atlas.spectrum import finite_or_none
 from atlas.view import FLUXES, FRAMES, MEDIA, UNITS, is_species, is_star_id
 
 PAPERS = ("a4", "letter")
@@ -226,14 +227,6 @@ def frame_for(view: ExportView, record: Mapping) -> FrameMap:
                          "there is no rest frame; use frame observed"
                          + (" or barycentric" if fmap.bary_kms is not None else ""))
     return fmap
-
-
-def _finite_or_none(x) -> float | None:
-    try:
-        f = float(x)
-    except (TypeError, ValueError):
-        return None
-    return f if math.isfinite(f) else None
 
 
 # ------------------------------------------------------------------------- atlas
@@ -445,7 +438,7 @@ def mark_bands(view: ExportView, fmap: FrameMap) -> list[MarkBand]:
 
 
 def _fmt(x, spec, suffix="") -> str | None:
-    v = _finite_or_none(x)
+    v = finite_or_none(x)
     return None if v is None else f"{v:{spec}}{suffix}"
 
 
@@ -598,8 +591,8 @@ def prepare(atlas_path, view: ExportView, *, html_page: int | None = None,
     """Open the star, check the view against it, and plan the strips to draw."""
     star = _open_star(atlas_path, view.star)
     fmap = frame_for(view, star.record)
-    extent = (_finite_or_none(star.record.get("wavelength_min_A")),
-              _finite_or_none(star.record.get("wavelength_max_A")))
+    extent = (finite_or_none(star.record.get("wavelength_min_A")),
+              finite_or_none(star.record.get("wavelength_max_A")))
     pieces = plan_pieces(view, fmap, star.strip_min_A, star.strip_max_A, whole_page=html_page,
                          extent=extent)
     if not pieces:

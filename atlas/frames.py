@@ -24,6 +24,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from atlas.physics import airvac, doppler
+from atlas.spectrum import finite_or_none
 from atlas.view import FRAMES  # noqa: F401  (re-exported)
 
 
@@ -101,9 +102,9 @@ class Frame:
     @classmethod
     def of_record(cls, frame: str, medium: str, record, unit: str = "A") -> Frame:
         """The Frame of a star's catalog record (``rv_kms``, ``barycentric_kms``, ``rv_obs_kms``)."""
-        return cls(frame, medium, _finite(record.get("rv_kms")),
-                   _finite(record.get("barycentric_kms")), unit,
-                   _finite(record.get("rv_obs_kms")))
+        return cls(frame, medium, finite_or_none(record.get("rv_kms")),
+                   finite_or_none(record.get("barycentric_kms")), unit,
+                   finite_or_none(record.get("rv_obs_kms")))
 
     def has_star_velocity(self) -> bool:
         """True when the star's lines can be placed by a measured velocity."""
@@ -113,11 +114,3 @@ class Frame:
         """The axis words, e.g. ``wavelength (Å, air, barycentric frame)``."""
         unit = "nm" if self.unit == "nm" else "Å"
         return f"wavelength ({unit}, {self.medium}, {self.frame} frame)"
-
-
-def _finite(value) -> float | None:
-    try:
-        v = float(value)
-    except (TypeError, ValueError):
-        return None
-    return v if np.isfinite(v) else None

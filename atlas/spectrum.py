@@ -13,6 +13,7 @@ known), ``exposure_s``, ``site_lat_deg``, ``site_lon_deg``, ``site_height_m``,
 from __future__ import annotations
 
 import hashlib
+import math
 import os
 
 import numpy as np
@@ -70,6 +71,15 @@ def make_spectrum(
         attrs={k: v for k, v in attrs.items() if v is not None},
     )
     return ds
+
+
+def finite_or_none(value) -> float | None:
+    """``value`` as a float when it is a finite number, else None (None, NaN, inf, text)."""
+    try:
+        v = float(value)
+    except (TypeError, ValueError):
+        return None
+    return v if math.isfinite(v) else None
 
 
 def medium_of(ds: xr.Dataset) -> str:

@@ -6,9 +6,9 @@ measurements (radial velocity, temperature, class) are added here and nowhere el
 
 from __future__ import annotations
 
-import math
-
 import numpy as np
+
+from atlas.spectrum import finite_or_none
 
 #: Measurement keys of a star record in ``atlas.json`` (numbers, strings or null).
 MEASUREMENT_KEYS = (
@@ -22,14 +22,6 @@ MEASUREMENT_KEYS = (
     "colour_srgb",
     "rv_obs_kms",
 )
-
-
-def _num(x):
-    try:
-        v = float(x)
-    except (TypeError, ValueError):
-        return None
-    return v if math.isfinite(v) else None
 
 
 def star_measurements(ds, *, site=None, radec=None, time=None, extra: dict | None = None,
@@ -72,7 +64,7 @@ def star_measurements(ds, *, site=None, radec=None, time=None, extra: dict | Non
     values = dict.fromkeys(MEASUREMENT_KEYS)
 
     bary, missing = correction_for(ds, site=site, radec=radec, time=time)
-    values["barycentric_kms"] = _num(bary)
+    values["barycentric_kms"] = finite_or_none(bary)
     if bary is None:
         notes.append(
             "no barycentric correction: the file gives no " + ", ".join(missing)
@@ -85,9 +77,9 @@ def star_measurements(ds, *, site=None, radec=None, time=None, extra: dict | Non
         per = [der_snr(flux[a : a + SNR_PIECE], None if mask is None else mask[a : a + SNR_PIECE])
                for a in range(0, flux.size, SNR_PIECE)]
         per = [v for v in per if np.isfinite(v)]
-        values["snr"] = _num(np.median(per)) if per else None
+        values["snr"] = finite_or_none(np.median(per)) if per else None
     else:
-        values["snr"] = _num(der_snr(flux, mask))
+        values["snr"] = finite_or_none(der_snr(flux, mask))
 
     # radial velocity (atlas.measure.rv), class and temperature (atlas.measure.classify)
     from atlas.measure.classify import classify, colour_temperature, is_calibrated
@@ -119,9 +111,9 @@ def star_measurements(ds, *, site=None, radec=None, time=None, extra: dict | Non
                 extra.update(rv_obs_kms=rv_obs, rv_err_kms=rvr.rv_err_kms, line_fwhm_kms=fwhm)
             # rv_kms barycentric when the correction is known, else null (see notes);
             # rv_obs_kms (observer's frame) always, and the one error serves both
-            values["rv_kms"] = _num(rvr.rv_kms)
-            values["rv_obs_kms"] = _num(rvr.rv_obs_kms)
-            values["rv_err_kms"] = _num(rvr.rv_err_kms)
+            values["rv_kms"] = finite_or_none(rvr.rv_kms)
+            values["rv_obs_kms"] = finite_or_none(rvr.rv_obs_kms)
+            values["rv_err_kms"] = finite_or_none(rvr.rv_err_kms)
             if rvr.method != "line mask":
                 notes.append(f"radial velocity by {rvr.method} fit ({rvr.note or 'line mask weak'})")
             if rvr.rv_kms is None:
@@ -136,15 +128,15 @@ def star_measurements(ds, *, site=None, radec=None, time=None, extra: dict | Non
             notes.append(cres.note)
         if is_calibrated(ds):
             runc = np.asarray(raw["uncertainty"].values) if "uncertainty" in raw else None
-            values["teff_k"] = _num(colour_temperature(raw["wavelength"].values, raw["flux"].values,
+            values["teff_k"] = finite_or_none(colour_temperature(raw["wavelength"].values, raw["flux"].values,
                                                        runc, raw["mask"].values if "mask" in raw else None)[0])
         elif cres.class_teff_k is not None:
-            values["teff_k"] = _num(round(cres.class_teff_k, -1))
+            values["teff_k"] = finite_or_none(round(cres.class_teff_k, -1))
             notes.append("flux not calibrated: teff_k is the class's temperature")
     except (ValueError, RuntimeError, np.linalg.LinAlgError) as exc:
         notes.append(f"no class or temperature: {exc}")
 
-    r = _num(ds.attrs.get("resolving_power"))
+    r = finite_or_none(ds.attrs.get("resolving_power"))
     if r is None:
         if wave.ndim == 1 and wave.size > SNR_PIECE:
             # long spectra: the median of per-piece medians (no whole-length temporaries)
@@ -152,7 +144,7 @@ def star_measurements(ds, *, site=None, radec=None, time=None, extra: dict | Non
                                        for a in range(0, wave.size - 1, SNR_PIECE)]))
         else:
             samp = median_sampling_kms(wave)
-        r = _num(implied_resolving_power(samp))
+        r = finite_or_none(implied_resolving_power(samp))
         if r is not None:
             notes.append(f"resolving power not in the file: {r:.0f} implied by the sampling")
     values["resolving_power"] = r

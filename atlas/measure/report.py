@@ -6,21 +6,12 @@ come from :func:`atlas.measure.card.star_measurements`, which calls the same pie
 
 from __future__ import annotations
 
-import math
-
 import numpy as np
 
 from atlas.measure import classify as cls
 from atlas.measure import identify as ident
 from atlas.measure import rv as rvmod
-
-
-def _num(x):
-    try:
-        v = float(x)
-    except (TypeError, ValueError):
-        return None
-    return v if math.isfinite(v) else None
+from atlas.spectrum import finite_or_none
 
 
 def normalised_1d(ds, continuum=None):
@@ -79,14 +70,14 @@ def measure_spectrum(ds, lines=None, *, calibrated: bool | None = None, site=Non
         notes.append(r.note)
     out = {
         "medium": medium,
-        "rv_kms": _num(r.rv_kms),
-        "rv_err_kms": _num(r.rv_err_kms),
-        "rv_obs_kms": _num(r.rv_obs_kms),
-        "barycentric_kms": _num(r.barycentric_kms),
-        "ccf_fwhm_kms": _num(r.ccf_fwhm_kms),
-        "ccf_contrast": _num(r.ccf_contrast),
-        "line_fwhm_kms": _num(r.line_fwhm_kms),
-        "vsini_rough_kms": _num(r.vsini_rough_kms),
+        "rv_kms": finite_or_none(r.rv_kms),
+        "rv_err_kms": finite_or_none(r.rv_err_kms),
+        "rv_obs_kms": finite_or_none(r.rv_obs_kms),
+        "barycentric_kms": finite_or_none(r.barycentric_kms),
+        "ccf_fwhm_kms": finite_or_none(r.ccf_fwhm_kms),
+        "ccf_contrast": finite_or_none(r.ccf_contrast),
+        "line_fwhm_kms": finite_or_none(r.line_fwhm_kms),
+        "vsini_rough_kms": finite_or_none(r.vsini_rough_kms),
         "rv_strips": r.as_dict()["strips"],
     }
     w, fn, sn, f_raw, s_raw = normalised_1d(ds, continuum)
@@ -101,18 +92,18 @@ def measure_spectrum(ds, lines=None, *, calibrated: bool | None = None, site=Non
     c = cls.classify(w, fn, sn, rv_obs_kms=rv_obs, line_fwhm_kms=fwhm, medium=lmed)
     if c.note:
         notes.append(c.note)
-    out.update(spectral_class=c.spectral_class, class_confidence=_num(c.class_confidence),
+    out.update(spectral_class=c.spectral_class, class_confidence=finite_or_none(c.class_confidence),
                class_runner_up=c.runner_up)
     out["teff_k"] = out["teff_err_k"] = None
     out["teff_method"] = None
     if calibrated:
         try:
             t, e = cls.colour_temperature(w, f_raw, s_raw)
-            out.update(teff_k=_num(t), teff_err_k=_num(e), teff_method="Planck colour temperature")
+            out.update(teff_k=finite_or_none(t), teff_err_k=finite_or_none(e), teff_method="Planck colour temperature")
         except Exception as exc:  # noqa: BLE001 - a failed fit is reported, not fatal
             notes.append(f"no colour temperature: {exc}")
     elif c.class_teff_k is not None:
-        out.update(teff_k=_num(c.class_teff_k), teff_method="from the class (flux not calibrated)")
+        out.update(teff_k=finite_or_none(c.class_teff_k), teff_method="from the class (flux not calibrated)")
 
     # lines
     if with_lines:
@@ -126,9 +117,9 @@ def measure_spectrum(ds, lines=None, *, calibrated: bool | None = None, site=Non
         weak = found[(found.depth > 0.05) & (found.depth < 0.5)] if len(found) else found
         out["line_fwhm_from"] = "RV template"
         if len(weak) >= 5:
-            out["line_fwhm_kms"] = _num(np.median(weak.fwhm_kms))
+            out["line_fwhm_kms"] = finite_or_none(np.median(weak.fwhm_kms))
             out["line_fwhm_from"] = f"median of {len(weak)} weak identified lines"
-            out["vsini_rough_kms"] = _num(rvmod.vsini_rough(out["line_fwhm_kms"],
+            out["vsini_rough_kms"] = finite_or_none(rvmod.vsini_rough(out["line_fwhm_kms"],
                                                             ds.attrs.get("resolving_power")))
     if ew_ranges:
         out["ew"] = [equivalent_width(w, fn, lo, hi, uncertainty=sn).as_dict() for lo, hi in ew_ranges]
@@ -141,7 +132,7 @@ def _records(df):
     for rec in recs:
         for k, v in rec.items():
             if isinstance(v, (np.floating, float)):
-                rec[k] = _num(v)
+                rec[k] = finite_or_none(v)
             elif isinstance(v, np.integer):
                 rec[k] = int(v)
     return recs
