@@ -10,6 +10,8 @@ import astropy.units as u
 import numpy as np
 import pytest
 
+from tests.browser.conftest import open_view
+
 pytestmark = [pytest.mark.browser, pytest.mark.slow, pytest.mark.timeout(120)]
 
 READ_SLOTS = """() => {
@@ -28,16 +30,6 @@ READ_SLOTS = """() => {
   }
   return out;
 }"""
-
-
-def open_view(page, url, query=""):
-    page.goto(url + query)
-    page.wait_for_function("() => window.Bokeh && Bokeh.documents.length > 0 && "
-                           "Bokeh.documents[0].get_model_by_name('spectrum-0') && "
-                           "Bokeh.documents[0].get_model_by_name('spectrum-0').data.x.length > 0",
-                           timeout=90_000)
-    page.wait_for_function("() => Bokeh.documents[0].is_idle", timeout=90_000)
-    time.sleep(1.0)
 
 
 def slots(page):
