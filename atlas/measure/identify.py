@@ -3,7 +3,7 @@
 1. The normalised depth ``1 - F/C`` is filtered with a Gaussian of the star's line
    width (a matched filter); its amplitude over its own error is each sample's
    significance.  Local maxima above ``min_sigma`` are the features.
-2. Each feature gets a Gaussian fit (scipy curve_fit): observed wavelength, depth,
+2. Each feature gets a Gaussian fit (weighted least squares, all features at once): observed wavelength, depth,
    width, equivalent width (depth * sigma * sqrt(2 pi)) and their errors.
 3. Stellar lines of the list are moved by the star's observed radial velocity;
    telluric lines stay where they are (the observer's frame).  A feature matches the
@@ -27,11 +27,10 @@ relativistic Doppler shift as in :mod:`atlas.physics.doppler`.
 from __future__ import annotations
 
 import math
-import warnings
 
 import numpy as np
 import pandas as pd
-from scipy import ndimage, optimize, signal
+from scipy import ndimage, signal
 
 from atlas.measure.rv import C_KMS, FWHM_PER_SIGMA, der_noise, normalise
 
@@ -54,6 +53,98 @@ COLUMNS = (
 
 def _gauss(x, d, mu, s):
     return 1.0 - d * np.exp(-0.5 * ((x - mu) / s) ** 2)
+
+
+def fit_gaussians(x, y, sigma, p0, *, max_iter: int = 200, rtol: float = 1e-10):
+    """Least-squares fits of ``1 - d exp(-(x - mu)^2 / 2 s^2)`` to many windows at once.
+
+    ``x``, ``y``, ``sigma``: arrays (n_fits, n_points), a point with ``sigma`` not finite
+    or <= 0 has no weight; ``p0``: (n_fits, 3) starting (d, mu, s).  Each fit runs its own
+    Levenberg-Marquardt iteration (own damping, own stop), all of them vectorised.
+    Returns ``(popt, pcov, ok)``: (n, 3), (n, 3, 3) covariance from the weights
+    (``absolute_sigma`` in scipy's terms), and whether each fit converged with a
+    well-conditioned covariance.  Agrees with ``scipy.optimize.curve_fit`` fit by fit
+    (tests/measure/test_identify.py).
+
+    References
+    ----------
+    Levenberg, K. (1944), Q. Appl. Math. 2, 164; Marquardt, D. W. (1963),
+    J. SIAM 11, 431; Press et al., Numerical Recipes (3rd ed., 2007), section 15.5.
+    """
+    x = np.asarray(x, dtype=np.float64)
+    y = np.asarray(y, dtype=np.float64)
+    s = np.asarray(sigma, dtype=np.float64)
+    p0 = np.asarray(p0, dtype=np.float64)
+    n = x.shape[0]
+    good = np.isfinite(x) & np.isfinite(y) & np.isfinite(s) & (s > 0)
+    w = np.where(good, 1.0 / np.where(good, s, 1.0), 0.0)
+    # each window in its own units: centred on the first guess, scaled by its width
+    x0 = p0[:, 1:2].copy()
+    sc = np.abs(p0[:, 2:3]).copy()
+    sc[~(sc > 0)] = 1.0
+    u = np.where(good, (np.where(good, x, 0.0) - x0) / sc, 0.0)
+    yy = np.where(good, y, 1.0)
+    p = np.column_stack([p0[:, 0], np.zeros(n), np.ones(n)])
+
+    def resid_jac(p, rows=slice(None)):
+        d, mu, sg = p[:, 0:1], p[:, 1:2], p[:, 2:3]
+        uu, ww = u[rows], w[rows]
+        with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+            t = (uu - mu) / sg
+            e = np.exp(-0.5 * t * t)
+        r = ww * (yy[rows] - 1.0 + d * e)
+        # derivatives of r with respect to d, mu and s
+        jd = ww * e
+        with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+            jmu = ww * d * e * t / sg
+        js = jmu * t
+        return r, np.stack([jd, jmu, js], axis=-1)
+
+    r, J = resid_jac(p)
+    cost = np.einsum("ij,ij->i", r, r)
+    lam = np.full(n, 1e-3)
+    active = np.isfinite(cost)
+    done = np.zeros(n, dtype=bool)
+    eye = np.eye(3)
+    for _ in range(max_iter):
+        idx = np.flatnonzero(active & ~done)
+        if idx.size == 0:
+            break
+        Ji, ri = J[idx], r[idx]
+        A = np.einsum("ikp,ikq->ipq", Ji, Ji)
+        g = np.einsum("ikp,ik->ip", Ji, ri)
+        diag = np.einsum("ipp->ip", A)
+        M = A + lam[idx, None, None] * (diag[:, :, None] * eye) + 1e-300 * eye
+        try:
+            step = -np.linalg.solve(M, g[..., None])[..., 0]
+        except np.linalg.LinAlgError:
+            step = -np.einsum("ipq,iq->ip", np.linalg.pinv(M), g)
+        trial = p[idx] + step
+        rt, Jt = resid_jac(trial, idx)
+        ct = np.einsum("ij,ij->i", rt, rt)
+        better = np.isfinite(ct) & (ct <= cost[idx])
+        small = better & ((cost[idx] - ct) <= rtol * np.maximum(cost[idx], 1e-300))
+        tiny = np.all(np.abs(step) <= 1e-10 * (np.abs(p[idx]) + 1e-10), axis=1)
+        b = idx[better]
+        p[b], r[b], J[b], cost[b] = trial[better], rt[better], Jt[better], ct[better]
+        lam[b] = np.maximum(lam[b] / 10.0, 1e-12)
+        nb = idx[~better]
+        lam[nb] = lam[nb] * 10.0
+        done[idx[small | tiny]] = True
+        active[idx[lam[idx] > 1e12]] = False  # no step lowers the cost any more
+    conv = done | ~active  # a stalled damping is a minimum too, as far as steps can tell
+    conv &= np.isfinite(cost)
+    A = np.einsum("ikp,ikq->ipq", J, J)
+    pcov = np.full((n, 3, 3), np.inf)
+    ok = conv & (np.linalg.cond(A) < 1e12)
+    if ok.any():
+        pcov[ok] = np.linalg.inv(A[ok])
+    # back to wavelength units: mu = x0 + sc mu', s = sc s'
+    scale = np.column_stack([np.ones(n), sc[:, 0], sc[:, 0]])
+    popt = p * scale
+    popt[:, 1] += x0[:, 0]
+    pcov = pcov * scale[:, :, None] * scale[:, None, :]
+    return popt, pcov, ok
 
 
 def find_features(wave_A, norm_flux, sigma, *, line_fwhm_kms: float, min_sigma: float = 5.0,
@@ -88,34 +179,33 @@ def find_features(wave_A, norm_flux, sigma, *, line_fwhm_kms: float, min_sigma: 
     if peaks.size > max_features:
         peaks = peaks[np.argsort(props["peak_heights"])[::-1][:max_features]]
         peaks.sort()
-    rows = []
     win = int(math.ceil(1.5 * FWHM_PER_SIGMA * sig_pix / 2)) + 2
-    for p in peaks:
-        a, b = max(0, p - win), min(w.size, p + win + 1)
-        sel = good[a:b]
-        if sel.sum() < 5:
-            continue
-        xx, yy, ss = w[a:b][sel], f[a:b][sel], s[a:b][sel]
-        s0 = w[p] * sig_pix * pix_kms / C_KMS
-        p0 = (max(amp[p], 1e-3), w[p], s0)
-        try:
-            with warnings.catch_warnings():
-                warnings.simplefilter("ignore")
-                popt, pcov = optimize.curve_fit(_gauss, xx, yy, p0=p0, sigma=ss,
-                                                absolute_sigma=True, maxfev=400)
-        except (RuntimeError, ValueError):
-            continue
-        dep, mu, sg = popt
-        sg = abs(sg)
-        if not (np.all(np.isfinite(pcov)) and dep > 0 and xx[0] <= mu <= xx[-1]):
-            continue
-        ed, emu, esg = np.sqrt(np.diag(pcov))
-        ew = dep * sg * math.sqrt(2 * math.pi)
-        # error of d * s with their covariance
-        var_ew = 2 * math.pi * (sg**2 * pcov[0, 0] + dep**2 * pcov[2, 2] + 2 * dep * sg * pcov[0, 2])
-        rows.append((mu, emu, dep, ed, ew * 1000.0, math.sqrt(max(var_ew, 0.0)) * 1000.0,
-                     FWHM_PER_SIGMA * sg / mu * C_KMS, float(signif[p])))
-    return pd.DataFrame(rows, columns=cols)
+    idx = peaks[:, None] + np.arange(-win, win + 1)[None, :]
+    inside = (idx >= 0) & (idx < w.size)
+    idx = np.clip(idx, 0, w.size - 1)
+    use = inside & good[idx]
+    keep = use.sum(axis=1) >= 5
+    peaks, idx, use = peaks[keep], idx[keep], use[keep]
+    if peaks.size == 0:
+        return pd.DataFrame(columns=cols)
+    xx = np.where(use, w[idx], np.nan)
+    s0 = w[peaks] * sig_pix * pix_kms / C_KMS
+    p0 = np.column_stack([np.maximum(amp[peaks], 1e-3), w[peaks], s0])
+    popt, pcov, ok = fit_gaussians(xx, f[idx], np.where(use, s[idx], np.nan), p0)
+    dep, mu, sg = popt[:, 0], popt[:, 1], np.abs(popt[:, 2])
+    with np.errstate(invalid="ignore"):
+        ok &= (dep > 0) & (mu >= np.nanmin(xx, axis=1)) & (mu <= np.nanmax(xx, axis=1))
+    ok &= np.all(np.isfinite(pcov.reshape(-1, 9)), axis=1)
+    dep, mu, sg, pcov, sig_at = dep[ok], mu[ok], sg[ok], pcov[ok], signif[peaks[ok]]
+    err = np.sqrt(np.clip(np.einsum("ipp->ip", pcov), 0.0, None))
+    ew = dep * sg * math.sqrt(2 * math.pi)
+    # error of d * s with their covariance
+    var_ew = 2 * math.pi * (sg**2 * pcov[:, 0, 0] + dep**2 * pcov[:, 2, 2] + 2 * dep * sg * pcov[:, 0, 2])
+    return pd.DataFrame({
+        "observed_A": mu, "observed_err_A": err[:, 1], "depth": dep, "depth_err": err[:, 0],
+        "ew_mA": ew * 1000.0, "ew_err_mA": np.sqrt(np.clip(var_ew, 0.0, None)) * 1000.0,
+        "fwhm_kms": FWHM_PER_SIGMA * sg / mu * C_KMS, "significance": sig_at.astype(np.float64),
+    }, columns=cols)
 
 
 #: A molecular band reaches this many e-folding lengths from its head (exp(-3) = 5 %

@@ -123,3 +123,47 @@ def test_m_star_band_features_are_not_left_unexplained(lines):
         scale = d if knd == "molecular_band" else 1.0
         inside = (unid.observed_A >= lo * scale) & (unid.observed_A <= hi * scale)
         assert not inside.any(), (lo, hi, unid.observed_A[inside].tolist()[:5])
+
+
+def test_batched_gaussian_fits_agree_with_scipy_curve_fit():
+    # Reference: scipy.optimize.curve_fit (MINPACK lmdif, absolute_sigma=True), fitted
+    # window by window; the batched fit must find the same minimum and covariance.
+    import warnings
+
+    from scipy.optimize import curve_fit
+
+    from atlas.measure.identify import _gauss, fit_gaussians
+
+    rng = np.random.default_rng(11)
+    n, m = 40, 25
+    mu_true = rng.uniform(5000, 6000, n)
+    s_true = mu_true * rng.uniform(3, 9, n) / 299792.458
+    d_true = rng.uniform(0.05, 0.8, n)
+    x = mu_true[:, None] + np.linspace(-4, 4, m)[None, :] * s_true[:, None]
+    noise = rng.uniform(0.003, 0.03, n)[:, None] * np.ones(m)
+    y = _gauss(x, d_true[:, None], mu_true[:, None], s_true[:, None]) + rng.normal(0, 1, (n, m)) * noise
+    noise[3, :4] = np.nan  # points without weight are left out
+    p0 = np.column_stack([d_true * 1.3, mu_true + 0.4 * s_true, s_true * 0.7])
+    popt, pcov, ok = fit_gaussians(x, y, noise, p0)
+    assert ok.all()
+    for i in range(n):
+        use = np.isfinite(noise[i])
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            ref, rcov = curve_fit(_gauss, x[i, use], y[i, use], p0=p0[i], sigma=noise[i, use],
+                                  absolute_sigma=True, maxfev=2000, xtol=1e-12, ftol=1e-12)
+        err = np.sqrt(np.diag(rcov))
+        assert np.all(np.abs(popt[i] - ref) < 1e-3 * err), (i, popt[i], ref)
+        # compared as correlations (curve_fit's finite-difference Jacobian is good to ~1e-3)
+        assert np.all(np.abs(pcov[i] - rcov) / np.outer(err, err) < 2e-3)
+
+
+def test_batched_gaussian_fit_reports_a_flat_window_as_failed():
+    # A window with no line: the depth is free but width and centre are not determined,
+    # so the covariance is singular and the fit is flagged (common practice).
+    from atlas.measure.identify import fit_gaussians
+
+    x = np.linspace(6000.0, 6001.0, 30)[None, :]
+    y = np.ones_like(x)
+    popt, pcov, ok = fit_gaussians(x, y, np.full_like(x, 0.01), np.array([[0.0, 6000.5, 0.1]]))
+    assert not ok[0]
