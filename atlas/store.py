@@ -124,26 +124,28 @@ def fresh_store_name(slug: str, key: str, atlas_url: str, in_use: set[str]) -> s
 # ---------------------------------------------------------------- writing
 
 
-def write_star(atlas_url: str, name: str, root: xr.Dataset, levels: list[xr.Dataset], strips_per_chunk: int) -> None:
-    """Write one star store (root group plus ``lod1``, ``lod2``, ... groups), Zarr v3, consolidated.
-
-    Overwrites whatever is at that path (it is never a path the current catalog names).
-    """
-    url = join(atlas_url, name)
-    fs, path = _fs(url)
-    if fs.exists(path):
-        fs.rm(path, recursive=True)
+def _root_encoding(root: xr.Dataset, strips_per_chunk: int, n_strips: int) -> dict:
+    """Zarr encoding of the root group: (strip, pixel) arrays in chunks of ``strips_per_chunk``
+    whole strips, Blosc LZ4; the small per-strip (strip) arrays in one chunk of ``n_strips``."""
     pixel = root.sizes["pixel"]
     comp = _compressors()
-    enc = {v: {"chunks": (strips_per_chunk, pixel), "compressors": comp}
-           for v in root.data_vars if root[v].dims == ("strip", "pixel")}
-    enc["wavelength"] = {"chunks": (strips_per_chunk, pixel), "compressors": comp}
-    root.to_zarr(url, mode="w", zarr_format=3, consolidated=False, encoding=enc)
-    for j, lev in enumerate(levels, start=1):
-        nb = lev.sizes["bin"]
-        lenc = {v: {"chunks": (min(lev.sizes["strip"], strips_per_chunk * 4), nb), "compressors": comp}
-                for v in lev.data_vars}
-        lev.to_zarr(url, group=f"lod{j}", mode="w", zarr_format=3, consolidated=False, encoding=lenc)
+    enc = {}
+    for k, v in root.variables.items():
+        if v.dims == ("strip", "pixel"):
+            enc[k] = {"chunks": (strips_per_chunk, pixel), "compressors": comp}
+        elif v.dims == ("strip",):
+            enc[k] = {"chunks": (max(1, n_strips),)}
+    return enc
+
+
+def _level_encoding(lev: xr.Dataset, strips_per_chunk: int, n_strips: int) -> dict:
+    """Zarr encoding of an envelope level: chunks of ``4 * strips_per_chunk`` strips (at most all)."""
+    rows = min(n_strips, strips_per_chunk * 4)
+    comp = _compressors()
+    return {v: {"chunks": (rows, lev.sizes["bin"]), "compressors": comp} for v in lev.data_vars}
+
+
+def _consolidate(url: str) -> None:
     import zarr
 
     with warnings.catch_warnings():
@@ -152,21 +154,69 @@ def write_star(atlas_url: str, name: str, root: xr.Dataset, levels: list[xr.Data
         zarr.consolidate_metadata(url, zarr_format=3)
 
 
-def _template(ds: xr.Dataset, n_strips: int) -> xr.Dataset:
-    """``ds`` with every variable replaced by lazy zeros of ``n_strips`` strips (layout only).
+def _clear(url: str) -> None:
+    fs, path = _fs(url)
+    if fs.exists(path):
+        fs.rm(path, recursive=True)
 
-    One dask chunk per variable: it is never computed, and a small graph keeps
-    ``to_zarr(compute=False)`` cheap (one dask chunk per Zarr chunk was most of its
-    cost in cProfile).
+
+def write_star(atlas_url: str, name: str, root: xr.Dataset, levels: list[xr.Dataset], strips_per_chunk: int) -> None:
+    """Write one star store (root group plus ``lod1``, ``lod2``, ... groups), Zarr v3, consolidated.
+
+    Overwrites whatever is at that path (it is never a path the current catalog names).
     """
-    import dask.array as da
+    url = join(atlas_url, name)
+    _clear(url)
+    n = root.sizes["strip"]
+    root.to_zarr(url, mode="w", zarr_format=3, consolidated=False,
+                 encoding=_root_encoding(root, strips_per_chunk, n))
+    for j, lev in enumerate(levels, start=1):
+        lev.to_zarr(url, group=f"lod{j}", mode="w", zarr_format=3, consolidated=False,
+                    encoding=_level_encoding(lev, strips_per_chunk, n))
+    _consolidate(url)
 
-    def lazy(v):
-        shape = (n_strips, *v.shape[1:])
-        return xr.Variable(v.dims, da.zeros(shape, dtype=v.dtype, chunks=shape), attrs=v.attrs)
 
-    return xr.Dataset({k: lazy(v.variable) for k, v in ds.data_vars.items()},
-                      coords={k: lazy(v.variable) for k, v in ds.coords.items()}, attrs=ds.attrs)
+def _layout(url: str, root: xr.Dataset, levels: list[xr.Dataset], n_strips: int, strips_per_chunk: int):
+    """Create the empty store of a star of ``n_strips`` strips, consolidated; returns its arrays.
+
+    xarray writes ``root`` and ``levels`` cut to zero strips (attributes, encoding, fill
+    values, dimension names: exactly what :func:`write_star` writes) into an in-memory Zarr
+    store, where each array is resized to ``n_strips`` strips (a metadata change: no chunk
+    exists yet); those metadata documents are then copied to ``url`` in one go.  Making
+    the arrays in memory takes a quarter of the time xarray takes on a local folder (measured
+    here), and no dask template is needed.  Returns ``{(level, name): zarr.Array}``, level 0
+    being the root group.
+    """
+    import zarr
+    from zarr.storage import MemoryStore
+
+    docs: dict = {}
+    mem = MemoryStore(docs)
+    none = {"strip": slice(0, 0)}
+    root.isel(none).to_zarr(mem, mode="w", zarr_format=3, consolidated=False,
+                            encoding=_root_encoding(root, strips_per_chunk, n_strips))
+    for j, lev in enumerate(levels, start=1):
+        lev.isel(none).to_zarr(mem, group=f"lod{j}", mode="w", zarr_format=3, consolidated=False,
+                               encoding=_level_encoding(lev, strips_per_chunk, n_strips))
+    g = zarr.open_group(mem, mode="r+", zarr_format=3)
+    for _, arr in g.arrays():
+        arr.resize((n_strips, *arr.shape[1:]))
+    for j in range(1, len(levels) + 1):
+        for _, arr in g[f"lod{j}"].arrays():
+            arr.resize((n_strips, *arr.shape[1:]))
+    with warnings.catch_warnings():
+        warnings.filterwarnings("ignore", message="Consolidated metadata", category=UserWarning)
+        zarr.consolidate_metadata(mem, zarr_format=3)
+    fs, path = _fs(url)
+    files = {f"{path}/{key}": buf.to_bytes() for key, buf in docs.items()}
+    if is_local(url):
+        for parent in sorted({f.rsplit("/", 1)[0] for f in files}):
+            os.makedirs(parent, exist_ok=True)
+    fs.pipe(files)
+    group = zarr.open_group(url, mode="r+", zarr_format=3, use_consolidated=True)
+    arrays = {(0, k): group[k] for k in root.variables}
+    arrays.update({(j, k): group[f"lod{j}"][k] for j, lev in enumerate(levels, start=1) for k in lev.data_vars})
+    return arrays
 
 
 def write_star_blocks(atlas_url: str, name: str, blocks, n_strips: int, strips_per_chunk: int,
@@ -175,69 +225,45 @@ def write_star_blocks(atlas_url: str, name: str, blocks, n_strips: int, strips_p
 
     ``blocks`` yields ``(b0, b1, root, levels)``: strips ``b0:b1`` of the root group and of
     each envelope level, in order and covering every strip; every ``b0`` is a multiple of
-    ``4 * strips_per_chunk`` so no Zarr chunk is shared between two blocks.  The arrays'
-    layout is created from the first block (``to_zarr(compute=False)`` of a lazy
-    template), each block is written into its strips of the Zarr arrays, and the metadata is consolidated
-    at the end, so only one block of padded strips is in memory at a time.
+    ``4 * strips_per_chunk`` so no Zarr chunk is shared between two blocks.  The layout
+    (every array, with its attributes and encoding, and the consolidated metadata) is
+    made from the first block by :func:`_layout`; each block then goes into its strips of
+    the Zarr arrays, so only one block of padded strips is in memory at a time.
     ``per_strip`` holds the root group's 1-D (strip) variables for every strip: they are
-    small and written whole, with the chunking :func:`write_star` gives them.
+    small and written whole.
     """
-    import zarr
-
     url = join(atlas_url, name)
-    fs, path = _fs(url)
-    if fs.exists(path):
-        fs.rm(path, recursive=True)
-    comp = _compressors()
-    lev_rows = min(n_strips, strips_per_chunk * 4)
-    first = True
+    _clear(url)
+    arrays = None
     for b0, b1, root, levels in blocks:
-        if first:
-            pixel = root.sizes["pixel"]
-            enc = {v: {"chunks": (strips_per_chunk, pixel), "compressors": comp}
-                   for v in root.data_vars if root[v].dims == ("strip", "pixel")}
-            enc["wavelength"] = {"chunks": (strips_per_chunk, pixel), "compressors": comp}
-            tmpl = _template(root.drop_vars(list(per_strip.data_vars)), n_strips)
-            tmpl = tmpl.assign(per_strip.data_vars)[list(root.data_vars)]
-            tmpl.to_zarr(
-                url, mode="w", zarr_format=3, consolidated=False, encoding=enc, compute=False)
-            for j, lev in enumerate(levels, start=1):
-                nb = lev.sizes["bin"]
-                lenc = {v: {"chunks": (lev_rows, nb), "compressors": comp} for v in lev.data_vars}
-                _template(lev, n_strips).to_zarr(
-                    url, group=f"lod{j}", mode="w", zarr_format=3, consolidated=False, encoding=lenc,
-                    compute=False)
-            first = False
-            group = zarr.open_group(url, mode="r+", zarr_format=3)
-            arrays = {(0, k): group[k] for k in root.variables if k not in per_strip}
-            arrays.update({(j, k): group[f"lod{j}"][k]
-                           for j, lev in enumerate(levels, start=1) for k in lev.data_vars})
+        if arrays is None:
+            arrays = _layout(url, root, levels, n_strips, strips_per_chunk)
+            for k, v in per_strip.variables.items():
+                _put(arrays[(0, k)], slice(None), v, k)
         # The variables keep their own dtypes on disk (no CF encoding changes their
         # values), so each block goes straight to its Zarr arrays: faster than an
         # xarray ``region=`` write per block, which reopens the group each time.
-        blocks_vars = [(0, root.variables)] + [(j, lev.data_vars) for j, lev in enumerate(levels, start=1)]
-        for j, variables in blocks_vars:
-            for k, v in variables.items():
-                if k in per_strip and j == 0:
-                    continue
-                arr = arrays[(j, k)]
-                if arr.dtype != v.dtype:  # would need xarray's encoding: never silently differ
-                    raise TypeError(f"{k}: stored as {arr.dtype}, block is {v.dtype}")
-                arr[b0:b1] = np.asarray(v.values)
-    with warnings.catch_warnings():
-        warnings.filterwarnings("ignore", message="Consolidated metadata", category=UserWarning)
-        zarr.consolidate_metadata(url, zarr_format=3)
+        for k, v in root.variables.items():
+            if k not in per_strip:
+                _put(arrays[(0, k)], slice(b0, b1), v, k)
+        for j, lev in enumerate(levels, start=1):
+            for k, v in lev.data_vars.items():
+                _put(arrays[(j, k)], slice(b0, b1), v, f"lod{j}/{k}")
+
+
+def _put(arr, rows: slice, v, name: str) -> None:
+    """``arr[rows] = v`` for a variable that must already have the stored dtype."""
+    if arr.dtype != v.dtype:  # would need xarray's encoding: never silently differ
+        raise TypeError(f"{name}: stored as {arr.dtype}, block is {v.dtype}")
+    arr[rows] = np.asarray(v.values)
 
 
 def write_features(atlas_url: str, name: str, features: xr.Dataset) -> None:
     """Write the ``features`` group of a star store (dimension ``feature``) and re-consolidate."""
-    import zarr
 
     url = join(atlas_url, name)
     features.to_zarr(url, group="features", mode="w", zarr_format=3, consolidated=False)
-    with warnings.catch_warnings():
-        warnings.filterwarnings("ignore", message="Consolidated metadata", category=UserWarning)
-        zarr.consolidate_metadata(url, zarr_format=3)
+    _consolidate(url)
 
 
 def _compressors():
