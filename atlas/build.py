@@ -581,7 +581,16 @@ def _run_dask(todo, options, atlas_url, in_use, workers, scheduler, bar) -> dict
         # star about 1.5x slower here than in a plain process.
         environ = {k: v for k, v in dict(dask.config.get("distributed.nanny.pre-spawn-environ", {})).items()
                    if k != "MALLOC_TRIM_THRESHOLD_"}
-        with dask.config.set({"distributed.nanny.pre-spawn-environ": environ}):
+        cfg = {"distributed.nanny.pre-spawn-environ": environ}
+        if sys.platform.startswith("linux"):
+            # Forked workers start with this process's modules already imported; spawned
+            # ones import everything again (measured here: cluster start 0.7 s instead
+            # of 1.2 s, plus 0.75 s of imports, shut-down 0.03 s instead of 0.4 s).
+            # zarr, fsspec and OpenBLAS reset their threads in a forked child.
+            cfg["distributed.worker.multiprocessing-method"] = "fork"
+            import atlas.io  # noqa: F401  (what build_star imports, so the workers inherit it)
+            import atlas.measure.card  # noqa: F401
+        with dask.config.set(cfg):
             cluster = LocalCluster(
                 n_workers=int(workers),
                 threads_per_worker=1,
