@@ -79,12 +79,21 @@ def template_grid(
     unknown = [c for c in names if c not in CLASS_TEFF_K]
     if unknown:
         raise InputError("classes", f"unknown class {unknown[0]!r}; known: {', '.join(CLASSES)}")
-    if lines is None:
-        lines = default_lines()
-    flux = np.empty((len(names), w.size), dtype=np.float64)
-    for i, name in enumerate(names):
-        star = Star(teff_k=CLASS_TEFF_K[name], vsini_kms=vsini_kms)
-        flux[i] = synthesize(w, star, resolving_power=R, medium=medium, lines=lines).normalised
+    def compute(lines=lines):
+        if lines is None:
+            lines = default_lines()
+        flux = np.empty((len(names), w.size), dtype=np.float64)
+        for i, name in enumerate(names):
+            star = Star(teff_k=CLASS_TEFF_K[name], vsini_kms=vsini_kms)
+            flux[i] = synthesize(w, star, resolving_power=R, medium=medium, lines=lines).normalised
+        return {"flux": flux}
+
+    if lines is None:  # the shipped line list: kept on disk between runs (atlas.diskcache)
+        from atlas.diskcache import cached_arrays
+
+        flux = cached_arrays("templates", (w, float(R), medium, tuple(names), float(vsini_kms)), compute)["flux"]
+    else:
+        flux = compute()["flux"]
     return xr.Dataset(
         {"flux": (("class", "sample"), flux)},
         coords={
