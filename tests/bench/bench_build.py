@@ -7,9 +7,10 @@ invented benchmark data written to a temporary folder.
 1. Throughput against a plain ``xarray.Dataset.to_zarr`` of the same arrays, timed in the
    same run: the storage pipeline (strips, continuum, envelopes, store) and the whole
    per-star build (read file, measurements, store).  Target: ratio >= 0.5.
-2. Two dask worker processes against serial on 20 spectra of a million samples
-   (LocalCluster start-up, the workers' imports and shut-down included: about 10 s on
-   this machine, so small spectra gain less).  Target: speed-up >= 1.6x.
+2. ``striae build --workers 2`` (a LocalCluster of two worker processes) against a serial
+   ``striae build`` on 20 spectra of a million samples, each a fresh process as a user
+   runs it (imports, first-call set-up, cluster start-up and shut-down included).
+   Target: speed-up >= 1.6x.
 3. Peak memory building one 10-million-sample spectrum, in a child process (peak RSS
    above the RSS after imports, over the in-memory size of the Spectrum).  Target: <= 4x.
 4. ``atlas.lod.window`` on a strip of that star once its chunk is cached.  Target: < ~5 ms.
@@ -99,23 +100,34 @@ def bench_throughput(tmp: Path, n=2_000_000):
           f"  ratio {(plain + t_read) / full:.2f} against read + plain to_zarr")
 
 
-def bench_parallel(tmp: Path, count=20, n=1_000_000):
-    from atlas.build import build_atlas
+def bench_parallel(tmp: Path, count=20, n=1_000_000, rounds=2):
+    """``striae build`` and ``striae build --workers 2`` of the same files, each a fresh process.
 
+    That is what a user runs: both pay Python's imports and the first-call set-up
+    (class templates, astropy's coordinate frames); the parallel run also pays the
+    LocalCluster start and shut-down.  The rounds alternate and the best of each counts.
+    """
     folder = tmp / "many"
     folder.mkdir()
-    files = [write_fits(folder / f"s{i:02d}.fits", n, start_A=3800 + 10 * i, seed=i, target=f"Bench {i}")
+    files = [str(write_fits(folder / f"s{i:02d}.fits", n, start_A=3800 + 10 * i, seed=i, target=f"Bench {i}"))
              for i in range(count)]
-    t0 = time.perf_counter()
-    build_atlas(files, str(tmp / "serial"), progress=False, out=open(os.devnull, "w"))
-    serial = time.perf_counter() - t0
-    t0 = time.perf_counter()
-    build_atlas(files, str(tmp / "par"), workers=2, progress=False, out=open(os.devnull, "w"))
-    par = time.perf_counter() - t0
+    env = {**os.environ, "PYTHONPATH": str(ROOT)}
+
+    def run(out, extra):
+        t0 = time.perf_counter()
+        subprocess.run([sys.executable, "-m", "atlas", "build", *files, "--out", str(out), *extra],
+                       check=True, env=env, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+        return time.perf_counter() - t0
+
+    serial, par = [], []
+    for r in range(rounds):
+        serial.append(run(tmp / f"serial{r}", []))
+        par.append(run(tmp / f"par{r}", ["--workers", "2"]))
     control = _two_process_control()
-    print(f"parallel, {count} spectra of {n:,} samples:")
-    print(f"  serial {serial:.1f} s, 2 dask workers {par:.1f} s (cluster start-up included):"
-          f" speed-up {serial / par:.2f}x  (target >= 1.6x)")
+    print(f"parallel, {count} spectra of {n:,} samples, each build a fresh `striae build` process (best of {rounds}):")
+    print(f"  serial {min(serial):.1f} s, --workers 2 {min(par):.1f} s (cluster start-up included):"
+          f" speed-up {min(serial) / min(par):.2f}x  (target >= 1.6x)")
+    print(f"  all runs: serial {', '.join(f'{t:.1f}' for t in serial)} s; --workers 2 {', '.join(f'{t:.1f}' for t in par)} s")
     print(f"  control: a pure-Python loop in 2 processes runs {control:.2f}x faster than in 1 on this"
           " machine right now (the most any 2-process build could gain)")
 
