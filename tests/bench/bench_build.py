@@ -5,8 +5,11 @@ Run: .venv/bin/python tests/bench/bench_build.py  (or ``make bench``).  The spec
 invented benchmark data written to a temporary folder.
 
 1. Throughput against a plain ``xarray.Dataset.to_zarr`` of the same arrays, timed in the
-   same run: the storage pipeline (strips, continuum, envelopes, store) and the whole
-   per-star build (read file, measurements, store).  Target: ratio >= 0.5.
+   same run: our storage pipeline (sort, vacuum, continuum, strips, envelopes, store)
+   against a default ``to_zarr`` of the arrays it stores (root group and envelope
+   levels, made beforehand).  Target: ratio >= 0.5.  Also printed for scale: the ratio
+   against a ``to_zarr`` of the input Spectrum's own arrays (fewer bytes: no padding,
+   continuum, normalised flux or envelopes), and the whole per-star build.
 2. ``striae build --workers 2`` (a LocalCluster of two worker processes) against a serial
    ``striae build`` on 20 spectra of a million samples, each a fresh process as a user
    runs it (imports, first-call set-up, cluster start-up and shut-down included).
@@ -66,6 +69,18 @@ def _plain_to_zarr(ds, url):
     return time.perf_counter() - t0
 
 
+def _plain_star_to_zarr(seq, plan, url):
+    """A plain ``to_zarr`` (xarray's default encoding and chunks) of the arrays a star store holds."""
+    from atlas.build import star_arrays
+
+    root, levels = star_arrays(seq, plan)  # made outside the timing: only the writing counts
+    t0 = time.perf_counter()
+    root.to_zarr(url, mode="w", zarr_format=3, consolidated=True)
+    for j, lev in enumerate(levels, start=1):
+        lev.to_zarr(url, group=f"lod{j}", mode="w", zarr_format=3, consolidated=True)
+    return time.perf_counter() - t0
+
+
 def bench_throughput(tmp: Path, n=2_000_000):
     import warnings
 
@@ -76,8 +91,11 @@ def bench_throughput(tmp: Path, n=2_000_000):
     warnings.filterwarnings("ignore", message="Consolidated metadata")
     path = write_fits(tmp / "one.fits", n)
     ds = read(path).load()
-    plain = min(_plain_to_zarr(ds, str(tmp / f"plain{i}.zarr")) for i in range(2))
     opts = BuildOptions()
+    seq, plan, _ = prepare(ds, opts)
+    same = min(_plain_star_to_zarr(seq, plan, str(tmp / f"same{i}.zarr")) for i in range(2))
+    del seq
+    plain = min(_plain_to_zarr(ds, str(tmp / f"plain{i}.zarr")) for i in range(2))
     best = float("inf")
     for i in range(2):
         t0 = time.perf_counter()
@@ -92,12 +110,14 @@ def bench_throughput(tmp: Path, n=2_000_000):
     t0 = time.perf_counter()
     read(path).load()
     t_read = time.perf_counter() - t0
-    print(f"throughput, {n:,} samples:")
-    print(f"  plain to_zarr of the Spectrum arrays   {plain:6.2f} s  ({n / plain / 1e6:5.2f} M samples/s)")
-    print(f"  strips+continuum+envelopes+store       {best:6.2f} s  ({n / best / 1e6:5.2f} M samples/s)"
-          f"  ratio {plain / best:.2f}  (target >= 0.5)")
+    print(f"throughput, {n:,} samples ({plan.n_strips} strips of {plan.pixel} pixels; best of 2 each):")
+    print(f"  plain to_zarr of the arrays a star store holds {same:6.2f} s  ({n / same / 1e6:5.2f} M samples/s)")
+    print(f"  plain to_zarr of the input Spectrum's arrays   {plain:6.2f} s  ({n / plain / 1e6:5.2f} M samples/s)")
+    print(f"  our pipeline: strips+continuum+envelopes+store {best:6.2f} s  ({n / best / 1e6:5.2f} M samples/s)")
+    print(f"    ratio against the same arrays' plain to_zarr {same / best:.2f}  (target >= 0.5)")
+    print(f"    ratio against the input arrays' plain to_zarr {plain / best:.2f}  (for scale: those are fewer bytes)")
     print(f"  whole per-star build (read, measure)   {full:6.2f} s  ({n / full / 1e6:5.2f} M samples/s)"
-          f"  ratio {(plain + t_read) / full:.2f} against read + plain to_zarr")
+          f"  ratio {(plain + t_read) / full:.2f} against read + plain to_zarr of the input")
 
 
 def bench_parallel(tmp: Path, count=20, n=1_000_000, rounds=2):
