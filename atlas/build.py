@@ -613,7 +613,10 @@ def _run_dask(todo, options, atlas_url, in_use, workers, scheduler, bar) -> dict
         # star about 1.5x slower here than in a plain process.
         environ = {k: v for k, v in dict(dask.config.get("distributed.nanny.pre-spawn-environ", {})).items()
                    if k != "MALLOC_TRIM_THRESHOLD_"}
-        cfg = {"distributed.nanny.pre-spawn-environ": environ}
+        cfg = {"distributed.nanny.pre-spawn-environ": environ,
+               # the workers' sampling profiler (every 10 ms, for the dashboard) took the
+               # GIL from the build often enough to cost several per cent here
+               "distributed.worker.profile.enabled": False}
         if sys.platform.startswith("linux"):
             # Forked workers start with this process's modules already imported; spawned
             # ones import everything again (measured here: cluster start 0.7 s instead
@@ -627,7 +630,7 @@ def _run_dask(todo, options, atlas_url, in_use, workers, scheduler, bar) -> dict
                 n_workers=int(workers),
                 threads_per_worker=1,
                 processes=True,
-                dashboard_address=":0",  # a free port, never a clash
+                dashboard_address=None,  # nobody is told its address: not started at all
                 silence_logs=logging.ERROR,
             )
         client = Client(cluster)
