@@ -82,6 +82,7 @@ def create_session(atlas_path, query: str | None = None, keep: dict | None = Non
         # Mirror the state to the URL.  Values arriving through the sync are checked again
         # by the viewer's watcher with the same rules as above.
         loc.sync(state, list(URL_PARAMS), on_error=viewer.on_url_error)
+        viewer.location = loc  # for Back/Forward (Viewer.restore_address)
         pn.state.curdoc.js_on_event("document_ready", CustomJS(args={"bridge": viewer.bridge}, code=KEYS_JS))
 
         def canonical():  # once loaded, show the validated values in the address bar

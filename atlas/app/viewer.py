@@ -12,6 +12,7 @@ from __future__ import annotations
 import dataclasses
 import html
 import math
+from urllib.parse import parse_qsl
 
 import numpy as np
 import panel as pn
@@ -127,6 +128,22 @@ window.__striae_keys = (e) => {
   bridge.tags = [a, Date.now()];
 };
 window.addEventListener('keydown', window.__striae_keys);
+// Back and Forward: send the address the browser went to; the server restores that view
+if (window.__striae_pop) { window.removeEventListener('popstate', window.__striae_pop); }
+window.__striae_pop = () => { bridge.tags = ['url', window.location.search.slice(0, 4000), Date.now()]; };
+window.addEventListener('popstate', window.__striae_pop);
+// The view then writes its address again: the same address replaces the history entry
+// instead of adding one (which would drop every entry after it, so Forward would not work)
+if (!history.__striae_same_url) {
+  const push = history.pushState.bind(history);
+  history.pushState = function (data, title, url) {
+    if (url != null && new URL(url, window.location.href).href === window.location.href) {
+      return history.replaceState(data, title, url);
+    }
+    return push(data, title, url);
+  };
+  history.__striae_same_url = true;
+}
 """
 
 
@@ -326,8 +343,9 @@ class Viewer:
         self.readout = Div(text="move the cursor over a strip for wavelength, velocity and flux",
                            sizing_mode="stretch_width", styles={"font-size": "12.5px", "color": INK},
                            name="readout")
+        self.location = None  # the session's pn.state.location, set by atlas.app.serve
         self.bridge = Div(text="", visible=False, name="striae-keys")
-        self.bridge.on_change("tags", lambda attr, old, new: self.key(new[0] if new else ""))
+        self.bridge.on_change("tags", lambda attr, old, new: self.from_browser(list(new)))
         self._build_widgets()
         self._build_overview()
         self.cmp_figs: list = []  # the comparison's plots are made when first needed
@@ -780,6 +798,36 @@ class Viewer:
                 and abs(self._cmp_window[1] - x1) < 1e-6:
             return
         self.state.param.update(lo=x0, hi=x1)
+
+    def from_browser(self, tags: list):
+        """A message from the page: a key action, or ``["url", search]`` after Back/Forward."""
+        if not tags:
+            return
+        if tags[0] == "url" and len(tags) > 1:
+            self.restore_address(str(tags[1]))
+        else:
+            self.key(str(tags[0]))
+
+    def restore_address(self, search: str):
+        """Show the view an address describes (Back/Forward): every link parameter it
+        leaves out goes back to its default; bad values are refused as in a link."""
+        search = search[:4000]
+        raw = dict(parse_qsl(search.lstrip("?"), keep_blank_values=True))
+        values, notices = parse_query(raw, self.data.strips_of())
+        self.note(*notices)
+        loc = self.location
+        if loc is None or not hasattr(loc, "_syncing"):
+            self.state.param.update(**{**DEFAULTS, **values})
+            return
+        # The address is already the browser's: keep Panel's URL sync from writing a
+        # re-serialised one (a new history entry would drop the ones after it), then
+        # tell the page's location model the address it shows.
+        loc._syncing = True
+        try:
+            self.state.param.update(**{**DEFAULTS, **values})
+        finally:
+            loc._syncing = False
+        loc.search = search if search.startswith("?") or not search else "?" + search
 
     def key(self, action: str):
         """Step pages and strips (buttons and keys)."""

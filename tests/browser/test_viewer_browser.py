@@ -149,3 +149,32 @@ def test_line_markers_sit_where_the_radial_velocity_puts_them(server, viewer_pag
                 checked += 1
     assert checked >= 5
     assert page.errors == []
+
+
+def test_back_and_forward_restore_the_views_in_between(server, viewer_page, tmp_path):
+    page = viewer_page
+    open_view(page, server["url"], "?star=test-star-a&per_page=3")
+    starts = {1: slots(page)[0]["start"]}
+    for p in (2, 3):
+        page.keyboard.press("PageDown")
+        assert wait_for(lambda p=p: query(page).get("page") == str(p)), query(page)
+        assert wait_for(lambda p=p: slots(page)[0]["start"] > starts[p - 1] + 1e-6)
+        starts[p] = slots(page)[0]["start"]
+    length = page.evaluate("() => history.length")
+
+    def shows(p):
+        return (query(page).get("page", "1") == str(p)
+                and abs(slots(page)[0]["start"] - starts[p]) < 1e-6)
+
+    page.evaluate("() => history.back()")
+    assert wait_for(lambda: shows(2)), (query(page), slots(page)[0]["start"], starts)
+    page.evaluate("() => history.back()")
+    assert wait_for(lambda: shows(1)), (query(page), slots(page)[0]["start"], starts)
+    page.screenshot(path=str(tmp_path / "back.png"))
+    page.evaluate("() => history.forward()")
+    assert wait_for(lambda: shows(2)), (query(page), slots(page)[0]["start"], starts)
+    page.evaluate("() => history.forward()")
+    assert wait_for(lambda: shows(3)), (query(page), slots(page)[0]["start"], starts)
+    # restoring a view wrote no new history entry (else Forward would have nowhere to go)
+    assert page.evaluate("() => history.length") == length
+    assert page.errors == []
