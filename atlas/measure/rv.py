@@ -157,7 +157,7 @@ def normalise(wave_A, flux, mask=None, *, order: bool = False):
         if span_kms > 0:
             settings = ContinuumSettings(knot_kms=max(span_kms / 8.0, 50.0),
                                          bin_kms=max(min(20.0, span_kms / 100.0), 1.0))
-    return fit_continuum(w, flux, mask, settings=settings)
+    return fit_continuum(w, flux, mask, settings=settings, blaze=order)
 
 
 def line_mask(lines, medium: str = "vacuum"):

@@ -54,3 +54,26 @@ def test_segments_are_fitted_separately():
                       settings=ContinuumSettings(knot_kms=500.0))
     np.testing.assert_allclose(c[:10_000], 10.0, rtol=1e-6)
     np.testing.assert_allclose(c[10_000:], 30.0, rtol=1e-6)
+
+
+def test_a_steep_echelle_blaze_is_followed_and_stays_positive():
+    # One order whose blaze falls to almost nothing at both ends: the grating blaze
+    # function sinc^2 (common practice), over 97 % of its main lobe's half-width,
+    # with absorption lines and photon noise.  Before fitting ln(flux) per order, the
+    # fitted curve went below zero near the ends of most orders of such a spectrum.
+    rng = np.random.default_rng(4)
+    n = 2048
+    wave = 3930.0 * np.exp(np.arange(n) * 2.0 / C_KMS)
+    u = np.linspace(-0.97, 0.97, n)
+    blaze = 38_000.0 * np.sinc(u) ** 2 + 5.0
+    lines = np.ones(n)
+    for c in rng.uniform(wave[100], wave[-100], 25):
+        lines *= 1.0 - rng.uniform(0.1, 0.7) * np.exp(-0.5 * ((wave - c) / (c * 6.0 / C_KMS)) ** 2)
+    flux = rng.poisson(blaze * lines).astype(float)
+    cont = fit_continuum(wave, flux, segments=[(0, n)])
+    assert np.all(cont > 0)
+    err = np.abs(cont / blaze - 1)
+    above5, above20 = blaze > 0.05 * blaze.max(), blaze > 0.2 * blaze.max()
+    assert np.median(err[above5]) < 0.01, np.median(err[above5])
+    assert np.max(err[above20]) < 0.05, np.max(err[above20])
+    assert np.nanmax(normalise(flux, cont)[above20]) < 1.1
