@@ -1,3 +1,3 @@
 """Striae: a browser-based atlas for long, high-resolution star spectra."""
 
-__version__ = "0.1.0"
+__version__ = "0.2.0"
