@@ -37,3 +37,19 @@ def line_rows():
 @pytest.fixture
 def rng():
     return np.random.default_rng(7)
+
+
+@pytest.fixture
+def make_viewer(built_atlas):
+    """A Viewer of the test atlas with the given state values (no server needed)."""
+
+    def make(**state_values):
+        from atlas.app.data import open_view_atlas
+        from atlas.app.state import ViewState
+        from atlas.app.viewer import Viewer
+
+        state = ViewState()
+        state.param.update(**state_values)
+        return Viewer(open_view_atlas(built_atlas), state)
+
+    return make

@@ -8,14 +8,8 @@ pytest.importorskip("panel")
 
 
 @pytest.fixture
-def viewer(built_atlas):
-    from atlas.app.data import open_view_atlas
-    from atlas.app.state import ViewState
-    from atlas.app.viewer import Viewer
-
-    state = ViewState()
-    state.param.update(star="test-star-a", per_page=12)
-    return Viewer(open_view_atlas(built_atlas), state)
+def viewer(make_viewer):
+    return make_viewer(star="test-star-a", per_page=12)
 
 
 def test_pdf_of_the_page_clamps_strips_per_page(viewer):

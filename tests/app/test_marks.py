@@ -20,14 +20,8 @@ def test_parse_mark_reads_ranges_units_and_notes():
 
 
 @pytest.fixture
-def viewer(built_atlas):
-    from atlas.app.data import open_view_atlas
-    from atlas.app.state import ViewState
-    from atlas.app.viewer import Viewer
-
-    state = ViewState()
-    state.param.update(star="test-star-a", per_page=3)
-    return Viewer(open_view_atlas(built_atlas), state)
+def viewer(make_viewer):
+    return make_viewer(star="test-star-a", per_page=3)
 
 
 def test_typed_mark_is_added_drawn_edited_and_deleted(viewer):

@@ -10,7 +10,7 @@ import astropy.units as u
 import numpy as np
 import pytest
 
-from tests.browser.conftest import open_view
+from tests.browser.conftest import open_view, wait_for
 
 pytestmark = [pytest.mark.browser, pytest.mark.slow, pytest.mark.timeout(120)]
 
@@ -40,16 +40,6 @@ def query(page):
     # read the address bar in the page (page.url is only refreshed when Playwright
     # processes events, which sleeping does not do)
     return {k: v[0] for k, v in parse_qs(page.evaluate("() => window.location.search")[1:]).items()}
-
-
-def wait_for(pred, timeout=30.0):
-    end = time.monotonic() + timeout
-    while time.monotonic() < end:
-        v = pred()
-        if v:
-            return v
-        time.sleep(0.2)
-    return pred()
 
 
 def test_the_atlas_opens_without_console_errors(server, viewer_page, tmp_path):
