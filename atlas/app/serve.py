@@ -8,14 +8,14 @@ Each browser session gets its own :class:`~atlas.app.state.ViewState` and
 
 from __future__ import annotations
 
-from urllib.parse import parse_qsl, urlencode
+from urllib.parse import urlencode
 
 import panel as pn
 from bokeh.models import CustomJS
 from panel.io.resources import LOCAL_DIST
 
 from atlas.app.data import open_view_atlas
-from atlas.app.state import URL_PARAMS, ViewState, parse_query, to_query
+from atlas.app.state import URL_PARAMS, ViewState, parse_search, to_query
 from atlas.app.viewer import KEYS_JS, Viewer
 
 TITLE = "Striae atlas"
@@ -69,9 +69,8 @@ def create_session(atlas_path, query: str | None = None, keep: dict | None = Non
     loc = session_location(pn.state.curdoc)
     if query is None:
         query = loc.search if loc is not None and loc.search else ""
-    raw = dict(parse_qsl(query.lstrip("?"), keep_blank_values=True))
     state = ViewState(name="view")
-    values, notices = parse_query(raw, data.strips_of())
+    values, notices = parse_search(query, data.strips_of())
     state.param.update(**values)
     if not data.star_ids:
         return pn.pane.Alert("This atlas holds no stars yet.", alert_type="warning")

@@ -203,6 +203,13 @@ def parse_marks(v: Any) -> list[list]:
     return out
 
 
+def parse_search(search: str, stars: Mapping[str, int]) -> tuple[dict[str, Any], list[str]]:
+    """:func:`parse_query` of an address's query string (``?a=b&...``, leading ``?`` optional)."""
+    from urllib.parse import parse_qsl
+
+    return parse_query(dict(parse_qsl(search.lstrip("?"), keep_blank_values=True)), stars)
+
+
 def parse_query(
     raw: Mapping[str, Any],
     stars: Mapping[str, int],

@@ -12,7 +12,6 @@ from __future__ import annotations
 import dataclasses
 import html
 import math
-from urllib.parse import parse_qsl
 
 import numpy as np
 import panel as pn
@@ -45,6 +44,7 @@ from atlas.app.state import (
     ViewState,
     parse_marks,
     parse_query,
+    parse_search,
 )
 
 C_KMS = 299_792.458  # CODATA exact speed of light
@@ -812,8 +812,7 @@ class Viewer:
         """Show the view an address describes (Back/Forward): every link parameter it
         leaves out goes back to its default; bad values are refused as in a link."""
         search = search[:4000]
-        raw = dict(parse_qsl(search.lstrip("?"), keep_blank_values=True))
-        values, notices = parse_query(raw, self.data.strips_of())
+        values, notices = parse_search(search, self.data.strips_of())
         self.note(*notices)
         loc = self.location
         if loc is None or not hasattr(loc, "_syncing"):
