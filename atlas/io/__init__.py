@@ -13,10 +13,18 @@ from __future__ import annotations
 import os
 
 from atlas.errors import InputError
-from atlas.io import fits_echelle, fits_image, fits_table, text, validate
+from atlas.io import (
+    fits_echelle,
+    fits_image,
+    fits_linear,
+    fits_multispec,
+    fits_table,
+    text,
+    validate,
+)
 
 #: Readers in the order they are asked (the most specific FITS layout first).
-READERS = (fits_echelle, fits_image, fits_table, text)
+READERS = (fits_multispec, fits_echelle, fits_linear, fits_image, fits_table, text)
 
 FORMATS = {r.NAME: r for r in READERS}
 

@@ -4,7 +4,8 @@ The spectral axis is axis 1, ``CTYPE1`` one of ``WAVE``, ``AWAV`` (linear) or
 ``WAVE-LOG``, ``AWAV-LOG`` (logarithmic), with ``CRVAL1``, ``CRPIX1``, the step
 ``CDELT1`` or ``CD1_1``, and the unit ``CUNIT1``.  Wavelengths are evaluated by
 astropy.wcs (wcslib), never by hand.  ``AWAV*`` means air wavelengths, ``WAVE*``
-vacuum.  An image of shape (1, N) is read as a 1-D spectrum.  An image with no
+vacuum.  An image of shape (1, N) or (1, 1, N) is read as a 1-D spectrum; one of
+(rows, N) with a spectral CTYPE1 as one spectrum per row on the shared axis.  An image with no
 WCS at all but an image HDU named ``WAVELENGTH`` (``WAVE``, ``LAMBDA``) of the same
 length beside it takes its wavelengths from there (unit in its ``BUNIT``, medium
 from a ``MEDIUM`` keyword), as a one-order echelle file would.  An optional
@@ -40,7 +41,11 @@ def _is_spectrum_image(extname: str, header, is_image: bool) -> bool:
     if naxis == 1:
         return n1 > 1
     if naxis == 2:
-        return header.get("NAXIS2", 0) == 1 and n1 > 1
+        rows = header.get("NAXIS2", 0)
+        spectral = str(header.get("CTYPE1", "")).strip().upper() in SPECTRAL_CTYPES
+        return n1 > 1 and (rows == 1 or (rows > 1 and spectral))
+    if naxis == 3:
+        return header.get("NAXIS2", 0) == 1 and header.get("NAXIS3", 0) == 1 and n1 > 1
     return False
 
 
@@ -71,7 +76,8 @@ def read(path, *, wave_unit=None, medium=None, **_options):
             raise InputError(p, "not a spectrum file: no image HDU of shape (N,) or (1, N)")
         hdu = hdul[index]
         header = hdu.header.copy()
-        flux = np.asarray(hdu.data, dtype=np.float64).reshape(-1)
+        flux = np.asarray(hdu.data, dtype=np.float64)
+        flux = flux.reshape(-1) if flux.ndim != 2 or flux.shape[0] == 1 else flux
         wave_hdu = _wavelength_image(hdul, index)
         if wave_hdu is not None and not str(header.get("CTYPE1", "")).strip():
             # no WCS, but a WAVELENGTH image beside the flux (the one-order echelle layout)
@@ -87,8 +93,10 @@ def read(path, *, wave_unit=None, medium=None, **_options):
                 or "unknown"
             )
         else:
-            wave_A, file_medium = wavelengths_from_wcs(header, flux.size, p, wave_unit)
-        unc = _uncertainty(hdul, index, p)
+            wave_A, file_medium = wavelengths_from_wcs(header, flux.shape[-1], p, wave_unit)
+            if flux.ndim == 2:  # one spectrum per row on the shared axis
+                wave_A = np.broadcast_to(wave_A, flux.shape).copy()
+        unc = _uncertainty(hdul, index, p, flux.shape)
         attrs = fitsutil.header_metadata(
             fitsutil.merged_header(hdul[0].header if index else None, header)
         )
@@ -161,14 +169,15 @@ def _wavelength_image(hdul, index):
     return None
 
 
-def _uncertainty(hdul, index, path):
-    """Standard deviations from an uncertainty HDU, or None."""
+def _uncertainty(hdul, index, path, shape):
+    """Standard deviations from an uncertainty HDU (in the flux's shape when it fits), or None."""
     for i, hdu in enumerate(hdul):
         if i == index or not hdu.is_image or hdu.data is None:
             continue
         kind = fitsutil.UNCERTAINTY_NAMES.get(str(hdu.header.get("EXTNAME", "")).strip().upper())
         if kind:
-            return to_sigma(np.asarray(hdu.data, dtype=np.float64).reshape(-1), kind)
+            sig = to_sigma(np.asarray(hdu.data, dtype=np.float64), kind)
+            return sig.reshape(shape) if sig.size == int(np.prod(shape)) else sig.reshape(-1)
     return None
 
 

@@ -12,9 +12,12 @@ Header keywords read (each optional; absent or unreadable ones stay absent):
 ``TIMESYS``               time scale of those keywords (default UTC)
 ``OBSGEO-B/L/H``          site latitude, longitude (deg), height (m)
 ``OBSGEO-X/Y/Z``          site as geocentric metres (converted with astropy EarthLocation)
-``RESPOWER``              resolving power lambda / delta-lambda (our own keyword)
+``RESPOWER``              resolving power lambda / delta-lambda (our own keyword); else
+                          ``SPEC_RES``, ``RESOLVING_POWER`` or ``R`` (common practice)
 ``BUNIT``                 flux unit
 ``MEDIUM``                ``air`` or ``vacuum`` where no WCS or column type says it (echelle)
+``AIRORVAC``, ``VACUUM``  medium in files without a spectral CTYPE1 (common practice):
+                          ``AIRORVAC = 'air'``/``'vac'``; ``VACUUM = T``/``F``
 ========================  ===================================================
 
 The keyword names follow the FITS Standard 4.0 (Pence et al. 2010, A&A 524, A42)
@@ -48,6 +51,9 @@ UNCERTAINTY_NAMES = {
 
 #: EXTNAMEs of an image holding each pixel's wavelength.
 WAVE_EXTNAMES = ("WAVELENGTH", "WAVELENGTHS", "WAVE", "LAMBDA")
+
+#: Keywords holding the resolving power lambda / delta-lambda, the first present wins.
+RESOLVING_POWER_KEYWORDS = ("RESPOWER", "SPEC_RES", "RESOLVING_POWER", "R")
 
 _TIME_SCALES = {"UTC", "TAI", "TT", "TDB", "TCG", "TCB", "UT1"}
 
@@ -243,14 +249,15 @@ def header_metadata(h) -> dict:
     except (TypeError, ValueError):
         bad.append("OBSGEO")
 
-    if h.get("RESPOWER") is not None:
+    rkey = next((k for k in RESOLVING_POWER_KEYWORDS if h.get(k) is not None), None)
+    if rkey is not None:
         try:
-            r = _number(h, "RESPOWER")
+            r = _number(h, rkey)
             if r is None or not r > 0 or r == float("inf"):
                 raise ValueError
             attrs["resolving_power"] = r
         except (TypeError, ValueError):
-            bad.append("RESPOWER")
+            bad.append(rkey)
 
     bunit = _text(h, "BUNIT")
     if bunit:
@@ -265,3 +272,28 @@ def header_medium(h) -> str | None:
     """``air`` / ``vacuum`` from our ``MEDIUM`` keyword, or None."""
     v = (_text(h, "MEDIUM") or "").lower()
     return v if v in ("air", "vacuum") else None
+
+
+def air_or_vacuum(h) -> str | None:
+    """``air`` / ``vacuum`` from ``MEDIUM``, ``AIRORVAC`` or ``VACUUM`` (common practice), or None."""
+    m = header_medium(h)
+    if m:
+        return m
+    v = (_text(h, "AIRORVAC") or "").lower()
+    if v in ("air", "vac", "vacuum"):
+        return "air" if v == "air" else "vacuum"
+    v = h.get("VACUUM")
+    if isinstance(v, bool):
+        return "vacuum" if v else "air"
+    v = (_text(h, "VACUUM") or "").lower()
+    if v in ("air", "vac", "vacuum"):
+        return "air" if v == "air" else "vacuum"
+    return None
+
+
+def first_image(hdul):
+    """Index of the first image HDU holding data, or None."""
+    for i, hdu in enumerate(hdul):
+        if hdu.is_image and hdu.header.get("NAXIS", 0) >= 1 and hdu.header.get("NAXIS1", 0) > 0:
+            return i
+    return None

@@ -205,12 +205,14 @@ def build(
     medium: str = "unknown",
     medium_option: str | None = None,
     attrs: dict | None = None,
+    mask=None,
 ):
     """Check arrays and make the Spectrum (wavelength in Å, along the last axis).
 
     1-D arrays give ``sample``; 2-D arrays give ``order``, ``sample``, each order
     checked and reversed on its own.  ``medium_option`` (``air``/``vacuum``)
-    overrides the file's medium.
+    overrides the file's medium.  ``mask`` (True = bad sample) is kept beside the
+    NaN-flux mask.
     """
     from atlas.spectrum import make_spectrum, sha256_of
 
@@ -218,22 +220,23 @@ def build(
     wave = np.array(wave_A, dtype=np.float64)
     flx = np.array(flux, dtype=np.float64)
     unc = None if uncertainty is None else np.array(uncertainty, dtype=np.float64)
-    check_same_length(p, wavelength=wave, flux=flx, uncertainty=unc)
-    check_flux(flx, p)
+    bad = None if mask is None else np.array(mask, dtype=bool)
+    check_same_length(p, wavelength=wave, flux=flx, uncertainty=unc, mask=bad)
+    check_flux(flx if bad is None else np.where(bad, np.nan, flx), p)
     if wave.ndim == 1:
         if check_wavelengths(wave, p):
             wave, flx = wave[::-1].copy(), flx[::-1].copy()
             unc = None if unc is None else unc[::-1].copy()
+            bad = None if bad is None else bad[::-1].copy()
     elif wave.ndim == 2:
         for k in range(wave.shape[0]):
             if check_wavelengths(wave[k], p, what=f"wavelengths of order {k}"):
-                wave[k] = wave[k, ::-1]
-                flx[k] = flx[k, ::-1]
-                if unc is not None:
-                    unc[k] = unc[k, ::-1]
+                for arr in (wave, flx, unc, bad):
+                    if arr is not None:
+                        arr[k] = arr[k, ::-1]
     else:
         raise InputError(p, f"data has {wave.ndim} dimensions; expected 1 (spectrum) or 2 (orders)")
     chosen = check_medium_option(medium_option) or medium
     meta = dict(attrs or {})
     meta.update(source_path=os.path.abspath(p), source_sha256=sha256_of(p), format=fmt)
-    return make_spectrum(wave, flx, unc, medium=chosen, **meta)
+    return make_spectrum(wave, flx, unc, bad, medium=chosen, **meta)

@@ -34,7 +34,9 @@ def test_every_reader_has_the_backend_interface():
     for reader in atlas.io.READERS:
         assert isinstance(reader.NAME, str) and isinstance(reader.DESCRIPTION, str)
         assert callable(reader.can_read) and callable(reader.read)
-    assert set(atlas.io.FORMATS) == {"fits_image", "fits_table", "fits_echelle", "text"}
+    assert set(atlas.io.FORMATS) == {
+        "fits_image", "fits_table", "fits_echelle", "fits_linear", "fits_multispec", "text"
+    }
 
 
 def test_detect_names_each_format(tmp_path):
