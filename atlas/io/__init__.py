@@ -5,7 +5,8 @@ Each reader module exposes ``NAME``, ``DESCRIPTION``, ``can_read(path) -> bool``
 (a Spectrum, see :mod:`atlas.spectrum`).  :func:`read` asks each reader in the
 order of ``READERS`` whether it can read a file and lets the first that says yes
 read it; :func:`detect` names that reader.  Every problem with a file ends as
-``InputError(path, reason)``.
+``InputError(path, reason)``.  Gzip or bzip2 files (by their first bytes) are
+unpacked to a temporary copy first (:mod:`atlas.io.compressed`).
 """
 
 from __future__ import annotations
@@ -14,6 +15,7 @@ import os
 
 from atlas.errors import InputError
 from atlas.io import (
+    compressed,
     fits_echelle,
     fits_image,
     fits_linear,
@@ -45,6 +47,9 @@ def detect(path) -> str:
     in no format we read.
     """
     p = validate.check_file(path)
+    if compressed.kind(p):
+        with compressed.unpacked(p) as inner:
+            return detect(inner)
     for reader in READERS:
         if reader.can_read(p):
             return reader.NAME
@@ -74,6 +79,14 @@ def read(
     """
     validate.check_medium_option(medium)
     p = validate.check_file(os.fspath(path))
+    if compressed.kind(p):
+        from atlas.spectrum import sha256_of
+
+        with compressed.unpacked(p) as inner:
+            ds = read(inner, format=format, wave_unit=wave_unit, medium=medium)
+        ds.attrs.update(source_path=os.path.abspath(p), source_sha256=sha256_of(p))
+        ds.attrs["compression"] = compressed.kind(p)
+        return ds
     reader = _reader_named(format) if format else FORMATS[detect(p)]
     try:
         return reader.read(p, wave_unit=wave_unit, medium=medium)
