@@ -47,6 +47,8 @@ def add_arguments(parser) -> None:
     parser.add_argument("--radec", metavar="RA,DEC", help="target coordinates: degrees, or sexagesimal (RA in hours)")
     parser.add_argument("--time", metavar="ISO", help="mid-exposure time, ISO 8601 UTC")
     parser.add_argument("--quiet", action="store_true", help="no progress bar")
+    parser.add_argument("--recursive", action="store_true",
+                        help="also take the files in sub-folders of a folder given as input")
 
 
 def _load_recipe(path: str) -> dict:
@@ -111,8 +113,9 @@ def _continuum(settings, where):
 
 def resolve(args) -> dict:
     """Merge a recipe (if given) and the command line (which wins) into build arguments."""
-    from atlas.build import BuildOptions, expand_inputs
+    from atlas.build import BuildOptions
     from atlas.commands.inspect import parse_radec, parse_site, parse_time
+    from atlas.io.folder import expand
 
     files = list(args.files)
     recipe, base, where = {"options": {}}, None, {}
@@ -174,8 +177,13 @@ def resolve(args) -> dict:
             key = exc.where.lstrip("-").replace("-", "_")
             raise InputError(src, f"options.{key}: {exc.reason}") from None
         raise
-    inputs = expand_inputs(files, base)
-    return {"inputs": inputs, "out": out, "options": options, "workers": workers,
+    inputs, unreadable = expand(files, recursive=bool(getattr(args, "recursive", False)), base=base,
+                                exclude=[out])
+    if not inputs:
+        for path, reason in unreadable[:-1]:
+            print(f"striae: {path}: {reason}", file=sys.stderr)
+        raise InputError(*(unreadable[-1] if unreadable else ("FILE", "no spectrum files to build")))
+    return {"inputs": inputs, "unreadable": unreadable, "out": out, "options": options, "workers": workers,
             "scheduler": scheduler, "force": bool(force)}
 
 
@@ -183,6 +191,8 @@ def run(args) -> int:
     from atlas.build import build_atlas
 
     r = resolve(args)
+    for path, reason in r["unreadable"]:
+        print(f"striae: {path}: {reason}", file=sys.stderr)
     opts = r["options"]
     if opts.equal_A is not None:
         how = f"strips of {opts.equal_A:g} Å"
@@ -201,4 +211,4 @@ def run(args) -> int:
     if report.committed:
         print(f"atlas {r['out']}: {len(report.catalog['stars'])} star(s)"
               f" ({len(report.built)} built, {len(report.kept)} unchanged)")
-    return 2 if report.failed or not report.committed else 0
+    return 2 if report.failed or r["unreadable"] or not report.committed else 0

@@ -9,6 +9,7 @@ import sys
 HELP = "show format, range, sampling, S/N, time, site and barycentric correction of spectrum files"
 EXAMPLE = (
     "striae inspect spectra/star_a.fits spectra/star_b.csv\n"
+    "         striae inspect --recursive night1/\n"
     "         striae inspect --json --site 28.76,-17.88,2330 --radec 10:08:22.3,+11:58:02 "
     "--time 2024-03-05T21:14:03 night1/star_c.fits\n"
     "         striae inspect --wave-unit nm --medium air --site=-29.26,-70.73,2400 table.csv"
@@ -40,7 +41,17 @@ JSON_KEYS = (
 def add_arguments(parser) -> None:
     from atlas.io import FORMATS
 
-    parser.add_argument("files", nargs="+", metavar="FILE", help="spectrum files (FITS or CSV/TSV)")
+    parser.add_argument(
+        "files",
+        nargs="+",
+        metavar="FILE",
+        help="spectrum files (FITS or text, also gzip/bzip2), glob patterns or folders",
+    )
+    parser.add_argument(
+        "--recursive",
+        action="store_true",
+        help="also take the files in sub-folders of a folder (and let ** in patterns reach them)",
+    )
     parser.add_argument(
         "--json",
         action="store_true",
@@ -198,6 +209,7 @@ def describe(path, args, site, radec, time) -> dict:
     rec["_unreadable"] = a.get("unreadable_keywords")
     rec["_flux_unit"] = a.get("flux_unit")
     rec["_uncertainty"] = "uncertainty" in ds
+    rec["_inferred_unit"] = a.get("wave_unit_inferred")
     return rec
 
 
@@ -266,8 +278,16 @@ def readable(rec) -> str:
     rows.append(("barycentric", bc))
     if rec["_unreadable"]:
         rows.append(("note", f"unreadable header keywords ignored: {rec['_unreadable']}"))
+    if rec["_inferred_unit"]:
+        rows.append(("note", rec["_inferred_unit"]))
     width = max(len(k) for k, _ in rows) + 2
     return "\n".join(f"{k:<{width}}{v}" for k, v in rows)
+
+
+def _is_folder(args) -> bool:
+    import os
+
+    return os.path.isdir(os.path.expanduser(str(args.files[0])))
 
 
 def run(args) -> int:
@@ -287,8 +307,13 @@ def run(args) -> int:
 
         wavelength_unit(args.wave_unit, "--wave-unit", "wavelengths")
 
-    records, failed = [], 0
-    for path in args.files:
+    from atlas.io.folder import expand
+
+    paths, unreadable = expand(args.files, recursive=args.recursive)
+    for path, reason in unreadable:
+        print(f"striae: {path}: {reason}", file=sys.stderr)
+    records, failed = [], len(unreadable)
+    for path in paths:
         try:
             rec = describe(path, args, site, radec, time)
         except InputError as exc:
@@ -304,7 +329,7 @@ def run(args) -> int:
             print(readable(rec), flush=True)
     if args.json:
         clean = [{k: r[k] for k in JSON_KEYS} for r in records]
-        if len(args.files) == 1:
+        if len(args.files) == 1 and len(paths) + len(unreadable) == 1 and not _is_folder(args):
             if clean:
                 print(json.dumps(clean[0], indent=2, ensure_ascii=False))
         else:
