@@ -3,7 +3,8 @@
 Layout: an image HDU of shape (orders, pixels) holding flux (the first 2-D image
 that is not named as wavelength or uncertainty), an image HDU of the same shape
 named ``WAVELENGTH`` (or ``WAVE``, ``LAMBDA``) holding each pixel's wavelength,
-its unit in that HDU's ``BUNIT`` (else ``--wave-unit``), and optionally an
+its unit in that HDU's ``BUNIT`` (else ``--wave-unit``, else inferred from the
+value range, see ``validate.infer_unit``), and optionally an
 uncertainty HDU named as for ``fits_image``.  The medium comes from a ``MEDIUM``
 keyword (``air``/``vacuum``) on the wavelength HDU or the primary header, else
 ``unknown``.  Orders are kept apart: dimensions ``order``, ``sample``; each order
@@ -16,7 +17,7 @@ import numpy as np
 
 from atlas.errors import InputError
 from atlas.io import fitsutil, validate
-from atlas.io.fits_image import _axis_unit, to_sigma
+from atlas.io.fits_image import to_sigma, unit_or_inferred
 
 NAME = "fits_echelle"
 DESCRIPTION = "multi-order echelle FITS: flux image (order x pixel) plus a wavelength image"
@@ -71,8 +72,8 @@ def read(path, *, wave_unit=None, medium=None, **_options):
             if kind and h.is_image and h.data is not None and i != fi:
                 unc = to_sigma(np.asarray(h.data, dtype=np.float64), kind)
                 break
-        unit = _axis_unit(
-            hdul[wi].header.get("BUNIT"), wave_unit, p, "BUNIT of the WAVELENGTH image"
+        unit, note = unit_or_inferred(
+            hdul[wi].header.get("BUNIT"), wave_unit, wave, p, "BUNIT of the WAVELENGTH image"
         )
         file_medium = (
             fitsutil.header_medium(hdul[wi].header)
@@ -81,6 +82,8 @@ def read(path, *, wave_unit=None, medium=None, **_options):
         )
         header = fitsutil.merged_header(hdul[0].header if fi else None, hdul[fi].header)
         attrs = fitsutil.header_metadata(header)
+        if note:
+            attrs["wave_unit_inferred"] = note
     validate.check_same_length(p, wavelength=wave, flux=flux, uncertainty=unc)
     return validate.build(
         p,

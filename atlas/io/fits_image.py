@@ -81,18 +81,18 @@ def read(path, *, wave_unit=None, medium=None, **_options):
         wave_hdu = _wavelength_image(hdul, index)
         if wave_hdu is not None and not str(header.get("CTYPE1", "")).strip():
             # no WCS, but a WAVELENGTH image beside the flux (the one-order echelle layout)
-            wave_A = validate.to_angstrom(
-                np.asarray(wave_hdu.data, dtype=np.float64).reshape(-1),
-                _axis_unit(
-                    wave_hdu.header.get("BUNIT"), wave_unit, p, "BUNIT of the WAVELENGTH image"
-                ),
+            raw = np.asarray(wave_hdu.data, dtype=np.float64).reshape(-1)
+            unit, note = unit_or_inferred(
+                wave_hdu.header.get("BUNIT"), wave_unit, raw, p, "BUNIT of the WAVELENGTH image"
             )
+            wave_A = validate.to_angstrom(raw, unit)
             file_medium = (
                 fitsutil.header_medium(wave_hdu.header)
                 or fitsutil.header_medium(hdul[0].header)
                 or "unknown"
             )
         else:
+            note = None
             wave_A, file_medium = wavelengths_from_wcs(header, flux.shape[-1], p, wave_unit)
             if flux.ndim == 2:  # one spectrum per row on the shared axis
                 wave_A = np.broadcast_to(wave_A, flux.shape).copy()
@@ -100,6 +100,8 @@ def read(path, *, wave_unit=None, medium=None, **_options):
         attrs = fitsutil.header_metadata(
             fitsutil.merged_header(hdul[0].header if index else None, header)
         )
+        if note:
+            attrs["wave_unit_inferred"] = note
     return validate.build(
         p, NAME, wave_A, flux, unc, medium=file_medium, medium_option=medium, attrs=attrs
     )
@@ -158,6 +160,13 @@ def _axis_unit(file_unit, wave_unit, path, keyword: str = "CUNIT1"):
     if wave_unit is None:
         raise InputError(path, f"no wavelength unit: {keyword} missing; give it with --wave-unit")
     return validate.wavelength_unit(wave_unit, "--wave-unit", "wavelengths")
+
+
+def unit_or_inferred(file_unit, wave_unit, values, path, keyword):
+    """(unit, note): the file's or ``--wave-unit``'s unit, else one inferred from the values."""
+    if (file_unit is None or str(file_unit).strip() == "") and wave_unit is None:
+        return validate.infer_unit(values, path)
+    return _axis_unit(file_unit, wave_unit, path, keyword), None
 
 
 def _wavelength_image(hdul, index):

@@ -1,9 +1,11 @@
 """Reader for a FITS table (binary or ASCII) with wavelength, flux and optional uncertainty columns.
 
 Columns are found by name, case-insensitively (see ``WAVE_NAMES``, ``FLUX_NAMES``,
-``SIGMA_NAMES``, ``VARIANCE_NAMES``, ``IVAR_NAMES``).  Either one row per sample,
+``SIGMA_NAMES``, ``VARIANCE_NAMES``, ``IVAR_NAMES``; a quality column from
+``QUALITY_NAMES`` masks every sample where it is non-zero).  Either one row per sample,
 or a single row whose cells are whole arrays.  The wavelength unit comes from the
-column's ``TUNITn`` (converted with astropy.units), else from ``--wave-unit``; the
+column's ``TUNITn`` (converted with astropy.units), else from ``--wave-unit``, else
+inferred from the value range (``validate.infer_unit``); the
 medium from its ``TCTYPn`` (``AWAV`` air, ``WAVE`` vacuum), else from a ``MEDIUM``
 header keyword, else ``unknown``.  The flux unit is the flux column's ``TUNITn``.
 """
@@ -14,7 +16,7 @@ import numpy as np
 
 from atlas.errors import InputError
 from atlas.io import fitsutil, validate
-from atlas.io.fits_image import _axis_unit, to_sigma
+from atlas.io.fits_image import to_sigma, unit_or_inferred
 
 NAME = "fits_table"
 DESCRIPTION = "FITS table with wavelength, flux and optional uncertainty columns"
@@ -49,6 +51,8 @@ SIGMA_NAMES = (
 )
 VARIANCE_NAMES = ("variance", "var", "flux_var", "flux_variance")
 IVAR_NAMES = ("ivar", "inverse_variance", "invvar", "flux_ivar")
+#: Quality / mask columns: a non-zero value marks a bad sample (common practice).
+QUALITY_NAMES = ("quality", "qual", "mask", "dq", "flag", "flags", "badpix", "qual_flag")
 
 
 def _is_table(header) -> bool:
@@ -116,13 +120,19 @@ def read(path, *, wave_unit=None, medium=None, **_options):
         wave = _column(data, wcol, p)
         flux = _column(data, fcol, p)
         unc = None if ucol is None else to_sigma(_column(data, ucol, p), kind)
+        qcol = _find(names, QUALITY_NAMES)
+        bad = None if qcol is None else _column(data, qcol, p) != 0
         cols = {c.name: c for c in hdu.columns}
-        unit = _axis_unit(cols[wcol].unit, wave_unit, p, f"TUNIT of column {wcol!r}")
+        unit, note = unit_or_inferred(
+            cols[wcol].unit, wave_unit, wave, p, f"TUNIT of column {wcol!r}"
+        )
         file_medium = _medium(cols[wcol], hdu.header, hdul[0].header)
         header = fitsutil.merged_header(hdul[0].header if i else None, hdu.header)
         attrs = fitsutil.header_metadata(header)
         if cols[fcol].unit:
             attrs["flux_unit"] = str(cols[fcol].unit).strip()
+        if note:
+            attrs["wave_unit_inferred"] = note
     try:
         wave_A = validate.to_angstrom(wave, unit)
     except (TypeError, ValueError) as exc:
@@ -130,7 +140,7 @@ def read(path, *, wave_unit=None, medium=None, **_options):
             p, f"wavelength column is not numeric ({validate.short_reason(exc)})"
         ) from None
     return validate.build(
-        p, NAME, wave_A, flux, unc, medium=file_medium, medium_option=medium, attrs=attrs
+        p, NAME, wave_A, flux, unc, medium=file_medium, medium_option=medium, attrs=attrs, mask=bad
     )
 
 

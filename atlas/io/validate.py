@@ -48,6 +48,12 @@ _UNIT_ALIASES = {
 
 MEDIUM_OPTIONS = ("air", "vacuum")
 
+#: Where a file names no wavelength unit: the unit whose range holds all values
+#: (common practice for ultraviolet to infrared spectra).  Å and nm overlap in
+#: 2,000-3,000; values there are ambiguous and refused.
+INFERRED_UNIT_RANGES = (("Angstrom", 2000.0, 30000.0), ("nm", 200.0, 3000.0), ("um", 0.2, 30.0))
+_UNIT_SHOWN = {"Angstrom": "Å", "nm": "nm", "um": "µm"}
+
 
 def check_file(path) -> str:
     """The path as a string, after checking it names a non-empty regular file."""
@@ -113,6 +119,36 @@ def wavelength_unit(text, path, what: str):
     if unit.physical_type != "length":
         raise InputError(path, f"unit {raw!r} of {what} is not a wavelength unit")
     return unit
+
+
+def infer_unit(values, path):
+    """(astropy unit, one-line note) from the range of wavelengths given without a unit.
+
+    ``InputError`` when no range or more than one holds every finite value.
+    """
+    import astropy.units as u
+
+    v = np.asarray(values, dtype=np.float64)
+    v = v[np.isfinite(v)]
+    if v.size == 0:
+        raise InputError(path, "no finite wavelengths to tell their unit from")
+    lo, hi = float(v.min()), float(v.max())
+    fits = [name for name, a, b in INFERRED_UNIT_RANGES if a <= lo and hi <= b]
+    span = f"{lo:,.6g}–{hi:,.6g}"
+    if len(fits) != 1:
+        why = (
+            "fits both " + " and ".join(_UNIT_SHOWN[f] for f in fits)
+            if fits
+            else "fits no usual unit"
+        )
+        raise InputError(
+            path, f"no wavelength unit in the file and the values {span} {why}; give --wave-unit"
+        )
+    note = (
+        f"wavelength unit inferred as {_UNIT_SHOWN[fits[0]]} from the values {span}"
+        " (the file names none; --wave-unit overrides)"
+    )
+    return u.Unit(fits[0]), note
 
 
 def to_angstrom(values, unit) -> np.ndarray:

@@ -101,11 +101,43 @@ def test_descending_table_is_reversed(tmp_path):
     np.testing.assert_allclose(ds["flux"].values, flux[::-1])
 
 
-def test_missing_tunit_needs_wave_unit(tmp_path):
+def test_missing_tunit_is_inferred_from_the_range_or_needs_wave_unit(tmp_path):
+    """Ranges: 2,000-30,000 Å, 200-3,000 nm, 0.2-30 µm (common practice); 1 nm = 10 Å (SI)."""
     path = _table(tmp_path / "t.fits", np.linspace(400, 410, N), np.ones(N), wave_unit=None)
-    with pytest.raises(InputError, match="--wave-unit"):
-        atlas.io.read(path)
-    assert atlas.io.read(path, wave_unit="nm")["wavelength"].values[0] == pytest.approx(4000.0)
+    ds = atlas.io.read(path)
+    np.testing.assert_allclose(ds["wavelength"].values, 10.0 * np.linspace(400, 410, N))
+    assert "inferred as nm" in ds.attrs["wave_unit_inferred"]
+    assert atlas.io.read(path, wave_unit="A")["wavelength"].values[0] == pytest.approx(400.0)
+    um = _table(tmp_path / "u.fits", np.linspace(1.5, 1.8, N), np.ones(N), wave_unit=None)
+    assert atlas.io.read(um)["wavelength"].values[0] == pytest.approx(15000.0)  # 1 µm = 1e4 Å
+    # 2,100-2,400 is Å or nm: refused, --wave-unit decides
+    both = _table(tmp_path / "b.fits", np.linspace(2100, 2400, N), np.ones(N), wave_unit=None)
+    with pytest.raises(InputError, match="fits both Å and nm; give --wave-unit"):
+        atlas.io.read(both)
+    assert atlas.io.read(both, wave_unit="nm")["wavelength"].values[0] == pytest.approx(21000.0)
+
+
+@pytest.mark.parametrize(
+    ("name", "values", "sigma"),
+    [("ERR", 0.1, 0.1), ("SIGMA", 0.1, 0.1), ("VAR", 0.04, 0.2), ("IVAR", 25.0, 0.2)],
+)
+def test_error_columns_and_quality_mask(tmp_path, name, values, sigma):
+    """sigma = sqrt(VAR) = 1 / sqrt(IVAR) (definitions of variance and inverse variance)."""
+    wave = np.linspace(5000.0, 5030.0, N)
+    quality = np.zeros(N, dtype=np.int16)
+    quality[[3, 10, 11]] = [1, 4, 128]
+    cols = [
+        fits.Column(name="WAVE", format="D", array=wave, unit="Angstrom"),
+        fits.Column(name="FLUX", format="D", array=np.ones(N)),
+        fits.Column(name=name, format="D", array=np.full(N, values)),
+        fits.Column(name="QUALITY", format="I", array=quality),
+    ]
+    path = tmp_path / "q.fits"
+    fits.HDUList([fits.PrimaryHDU(), fits.BinTableHDU.from_columns(cols)]).writeto(path)
+    ds = atlas.io.read(path)
+    np.testing.assert_allclose(ds["uncertainty"].values, sigma, rtol=1e-12)
+    assert np.flatnonzero(ds["mask"].values).tolist() == [3, 10, 11]
+    np.testing.assert_array_equal(ds["flux"].values, 1.0)  # masked, the values kept
 
 
 def test_table_without_wavelength_column(tmp_path):
