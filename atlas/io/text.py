@@ -1,15 +1,20 @@
-"""Reader for CSV / TSV text spectra with a header line and ``# key: value`` metadata.
+"""Reader for CSV / TSV / plain text spectra, with or without a header line.
 
 The file convention (also in README, "Reading spectrum files"):
 
-* Lines starting with ``#`` are comments.  A comment of the form ``# key: value``
-  with a key from ``METADATA_KEYS`` sets that metadata; other comments are ignored.
-* The first other non-blank line is the header naming the columns, separated by
-  tabs, commas, semicolons (whichever the header line holds) or else whitespace.
+* Lines starting with ``#``, ``;`` or ``!`` are comments, anywhere in the file;
+  blank lines too.  A comment of the form ``# key: value`` with a key from
+  ``METADATA_KEYS`` sets that metadata; other comments are ignored.
+* The first other line is the header naming the columns, separated by tabs,
+  commas, semicolons (whichever the header line holds) or else whitespace.  When
+  that line holds two or three numbers there is no header: the columns are
+  wavelength, flux and (optionally) uncertainty.  Numbers may use a Fortran
+  ``D`` exponent (``1.5D+03``).
 * The wavelength column is ``wavelength`` (or ``wave``, ``lambda``, ``wl``), its
   unit as a suffix: ``wavelength_A``, ``wavelength_nm``, ``wavelength_um`` (also
   ``wavelength [nm]`` or ``wavelength(nm)``), else the ``# wave_unit:`` comment or
-  the ``wave_unit`` option (``--wave-unit``); two different units are an error.
+  the ``wave_unit`` option (``--wave-unit``); two different units are an error;
+  none at all: inferred from the value range (``validate.infer_unit``).
 * A flux column (``flux``, ``intensity``, ``counts``, ...) and optionally an
   uncertainty column (``uncertainty``, ``error``, ``sigma``, ... as standard
   deviations; ``variance``; ``ivar`` as inverse variance).  Empty cells and
@@ -30,7 +35,13 @@ from atlas.io.fits_image import to_sigma
 from atlas.io.fits_table import FLUX_NAMES, IVAR_NAMES, SIGMA_NAMES, VARIANCE_NAMES
 
 NAME = "text"
-DESCRIPTION = "CSV/TSV table with a header line and '# key: value' metadata"
+DESCRIPTION = "text table (CSV, TSV, whitespace): wavelength, flux, optional error; header optional"
+
+#: First characters of a comment line.
+COMMENT_CHARS = ("#", ";", "!")
+#: Column names of a file without a header line.
+HEADERLESS_NAMES = ("wavelength", "flux", "error")
+_FORTRAN_EXP = re.compile(r"(?<=[0-9.])[dD](?=[+-]?[0-9])")
 
 #: ``# key: value`` comment keys and what they mean.
 METADATA_KEYS = {
@@ -79,9 +90,18 @@ def _wave_match(name: str):
 def _first_header(text: str) -> str | None:
     for line in text.splitlines():
         s = line.strip()
-        if s and not s.startswith("#"):
+        if s and not s.startswith(COMMENT_CHARS):
             return s
     return None
+
+
+def _fortran(s: str) -> str:
+    """Fortran ``D`` exponents as ``E`` (``1.5D+03`` -> ``1.5E+03``)."""
+    return _FORTRAN_EXP.sub("E", s)
+
+
+def _headerless(names) -> bool:
+    return len(names) in (2, 3) and all(_is_number(_fortran(n)) for n in names)
 
 
 @validate.sniffer
@@ -102,7 +122,7 @@ def can_read(path) -> bool:
     if header is None:
         return False
     names = _split(header, _delimiter(header))
-    if any(_wave_match(n) for n in names):
+    if any(_wave_match(n) for n in names) or _headerless(names):
         return True
     return os.path.splitext(os.fspath(path))[1].lower() in (".csv", ".tsv")
 
@@ -126,7 +146,7 @@ def read(path, *, wave_unit=None, medium=None, **_options):
         s = line.strip()
         if not s:
             continue
-        if s.startswith("#"):
+        if s.startswith(COMMENT_CHARS):
             m = _COMMENT_RE.match(s)
             if m and m.group(1).lower() in METADATA_KEYS:
                 comments[m.group(1).lower()] = (i + 1, m.group(2))
@@ -138,10 +158,14 @@ def read(path, *, wave_unit=None, medium=None, **_options):
     header = lines[header_at].strip()
     delim = _delimiter(header)
     names = _split(header, delim)
-    if all(_is_number(n) for n in names):
+    data_from = header_at + 1
+    if _headerless(names):
+        names, data_from = list(HEADERLESS_NAMES[: len(names)]), header_at
+    elif all(_is_number(_fortran(n)) for n in names):
         raise InputError(
             p,
-            "no header line: the first line holds numbers; name the columns, e.g. wavelength_A,flux",
+            f"no header line and {len(names)} columns; without a header give 2 or 3"
+            " (wavelength, flux, error), or name the columns, e.g. wavelength_A,flux",
         )
     wave_i = next((k for k, n in enumerate(names) if _wave_match(n)), None)
     if wave_i is None:
@@ -172,11 +196,16 @@ def read(path, *, wave_unit=None, medium=None, **_options):
     m = _wave_match(names[wave_i])
     col_unit = m.group("u1") or m.group("u2")
     unit = _unit(p, col_unit, comments.get("wave_unit"), wave_unit)
-    table = _numbers(p, lines, header_at, delim, len(names))
+    table = _numbers(p, lines, data_from, delim, len(names))
+    note = None
+    if unit is None:
+        unit, note = validate.infer_unit(table[:, wave_i], p)
     wave_A = validate.to_angstrom(table[:, wave_i], unit)
     flux = table[:, flux_i]
     unc = None if unc_i is None else to_sigma(table[:, unc_i], kind)
     attrs, file_medium = _metadata(p, comments)
+    if note:
+        attrs["wave_unit_inferred"] = note
     return validate.build(
         p, NAME, wave_A, flux, unc, medium=file_medium, medium_option=medium, attrs=attrs
     )
@@ -191,7 +220,7 @@ def _is_number(s: str) -> bool:
 
 
 def _unit(path, col_unit, comment, option):
-    """The one wavelength unit named by the column suffix, the comment and the option."""
+    """The one wavelength unit named by the column suffix, the comment and the option (None: none)."""
     named = []
     if col_unit:
         named.append(
@@ -215,10 +244,7 @@ def _unit(path, col_unit, comment, option):
             (validate.wavelength_unit(option, "--wave-unit", "wavelengths"), option, "--wave-unit")
         )
     if not named:
-        raise InputError(
-            path,
-            "no wavelength unit: name the column wavelength_A, wavelength_nm or wavelength_um, or give --wave-unit",
-        )
+        return None  # the caller infers it from the values
     first = named[0]
     for other in named[1:]:
         if other[0] != first[0]:
@@ -229,14 +255,14 @@ def _unit(path, col_unit, comment, option):
     return first[0]
 
 
-def _numbers(path, lines, header_at, delim, ncol) -> np.ndarray:
+def _numbers(path, lines, data_from, delim, ncol) -> np.ndarray:
     """The data rows as a float array (rows x ncol); ragged or non-numeric rows are errors."""
     import pandas as pd
 
     rows = []
-    for i in range(header_at + 1, len(lines)):
-        s = lines[i].strip()
-        if not s or s.startswith("#"):
+    for i in range(data_from, len(lines)):
+        s = _fortran(lines[i].strip())
+        if not s or s.startswith(COMMENT_CHARS):
             continue
         n = (s.count(delim) + 1) if delim else len(s.split())
         if n != ncol:

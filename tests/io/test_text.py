@@ -43,10 +43,13 @@ def test_header_suffix_gives_the_unit(write_text, column, scale):
 
 def test_wave_unit_option_for_a_bare_column(write_text):
     path = write_text(["wavelength,flux", *_rows([w / 10 for w in WAVE_A])])
-    with pytest.raises(InputError, match="no wavelength unit"):
-        atlas.io.read(path)
+    # no unit anywhere: 656.2-656.45 lies only in the nm range (common practice ranges)
+    ds = atlas.io.read(path)
+    np.testing.assert_allclose(ds["wavelength"].values, WAVE_A, rtol=1e-12)
+    assert "inferred as nm" in ds.attrs["wave_unit_inferred"]
     ds = atlas.io.read(path, wave_unit="nm")
     np.testing.assert_allclose(ds["wavelength"].values, WAVE_A, rtol=1e-12)
+    assert "wave_unit_inferred" not in ds.attrs
 
 
 def test_wave_unit_option_that_contradicts_the_column(write_text):
@@ -139,9 +142,10 @@ def test_bad_comment_values_name_the_line(write_text, comment, fragment):
     assert fragment in exc.value.reason
 
 
-def test_headerless_numbers_are_refused(write_text):
-    with pytest.raises(InputError, match="no header line"):
-        atlas.io.read(write_text(_rows(WAVE_A)))
+def test_headerless_numbers_with_four_columns_are_refused(write_text):
+    rows = [f"{w},1.0,0.1,7" for w in WAVE_A]
+    with pytest.raises(InputError, match="no header line and 4 columns"):
+        atlas.io.read(write_text(rows))
 
 
 def test_byte_order_mark_and_crlf_line_ends(tmp_path):
