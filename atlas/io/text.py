@@ -122,7 +122,8 @@ def can_read(path) -> bool:
     if header is None:
         return False
     names = _split(header, _delimiter(header))
-    if any(_wave_match(n) for n in names) or _headerless(names):
+    numbers = len(names) >= 2 and all(_is_number(_fortran(n)) for n in names)
+    if any(_wave_match(n) for n in names) or numbers:  # read() refuses other than 2-3 columns
         return True
     return os.path.splitext(os.fspath(path))[1].lower() in (".csv", ".tsv")
 

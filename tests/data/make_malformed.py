@@ -7,6 +7,7 @@ committed files, and that ``striae inspect`` refuses each with a one-line reason
 
 from __future__ import annotations
 
+import gzip
 import struct
 import sys
 import zlib
@@ -48,6 +49,14 @@ def _fits_bytes(hdul) -> bytes:
     return buf.getvalue()
 
 
+def _multispec(spec: str, n=64) -> bytes:
+    """A one-order image with its dispersion in WAT2 cards (the published WAT header convention)."""
+    hdu = _image(n, WAT0_001="system=multispec")
+    hdu.header["WAT1_001"] = "wtype=multispec label=Wavelength units=angstroms"
+    hdu.header["WAT2_001"] = f'wtype=multispec spec1 = "{spec}"'
+    return _fits_bytes([hdu])
+
+
 def _csv(header: str, rows, comments=()) -> bytes:
     lines = [f"# {c}" for c in comments] + [header] + [",".join(map(str, r)) for r in rows]
     return ("\n".join(lines) + "\n").encode()
@@ -83,6 +92,24 @@ def files() -> dict[str, bytes]:
     out["nonfinite_wavelength.csv"] = _csv(
         "wavelength_nm,flux", zip([*w[:2], "inf", *w[3:]], f, strict=True)
     )
+    # the older dispersion conventions and compressed files
+    out["bad_dc_flag.fits"] = _fits_bytes(
+        [_image(CTYPE1="LINEAR", CRVAL1=5000.0, CDELT1=0.1, **{"DC-FLAG": -1})]
+    )
+    out["wat2_unknown_dispersion.fits"] = _multispec("1 1 7 5000. 0.1 64 0. 1. 2.")
+    out["wat2_unsupported_function.fits"] = _multispec(
+        "1 1 2 0. 0. 64 0. 1. 2. 1. 0. 5 3 1. 2. 3. 4. 5. 6."
+    )
+    out["wat2_missing_coefficients.fits"] = _multispec(
+        "1 1 2 0. 0. 64 0. 1. 2. 1. 0. 1 4 1. 64. 5000. 1."
+    )
+    two_rows = fits.PrimaryHDU(np.ones((2, 64), dtype=np.float32))
+    two_rows.header["WAT0_001"] = "system=multispec"
+    two_rows.header["WAT2_001"] = 'wtype=multispec spec1 = "1 1 0 5000. 0.1 64 0. 1. 2."'
+    out["wat2_missing_order.fits"] = _fits_bytes([two_rows])
+    out["corrupt.fits.gz"] = gzip.compress(good, mtime=0)[:400]
+    out["ambiguous_unit.txt"] = b"2100.0 1.0\n2100.5 0.9\n2101.0 1.1\n"
+    out["four_columns_no_header.txt"] = b"5000.0 1.0 0.1 7\n5000.1 0.9 0.1 7\n"
     return out
 
 

@@ -30,6 +30,14 @@ EXPECTED = {
     "unknown_unit.fits": "unknown unit 'bananas'",
     "unknown_unit.csv": "unknown unit 'bogus'",
     "nonfinite_wavelength.csv": "non-finite wavelengths",
+    "bad_dc_flag.fits": "DC-FLAG is -1",
+    "wat2_unknown_dispersion.fits": "dispersion type 7 is not 0, 1 or 2",
+    "wat2_unsupported_function.fits": "dispersion function type 5 is not supported",
+    "wat2_missing_coefficients.fits": "Chebyshev term needs 4 coefficients",
+    "wat2_missing_order.fits": "spec2 missing in WAT2",
+    "corrupt.fits.gz": "corrupt gzip file",
+    "ambiguous_unit.txt": "fits both Å and nm; give --wave-unit",
+    "four_columns_no_header.txt": "no header line and 4 columns",
 }
 
 
