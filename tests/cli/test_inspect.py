@@ -218,3 +218,39 @@ def test_help_has_an_example(capsys):
     assert exc.value.code == 0
     out = capsys.readouterr().out
     assert "Example: striae inspect" in out and "--wave-unit" in out and "--radec" in out
+
+
+def test_inferred_wavelength_unit_is_a_one_line_note(tmp_path, capsys):
+    """No unit in the file: inferred from the range (2,000-30,000 Å, common practice), said once."""
+    path = tmp_path / "plain.txt"
+    path.write_text("".join(f"{6560.0 + 0.05 * k:.2f} {1.0 + 0.001 * k:.4f}\n" for k in range(400)))
+    assert cli.main(["inspect", str(path)]) == 0
+    out = capsys.readouterr().out
+    notes = [ln for ln in out.splitlines() if "unit inferred" in ln]
+    assert len(notes) == 1 and notes[0].startswith("note") and "inferred as Å" in notes[0]
+    assert "--wave-unit overrides" in notes[0]
+    assert cli.main(["inspect", "--json", "--wave-unit", "nm", str(path)]) == 0
+    rec = json.loads(capsys.readouterr().out)
+    assert rec["wavelength_min_A"] == pytest.approx(65600.0)  # 1 nm = 10 Å (SI)
+    assert cli.main(["inspect", "--wave-unit", "nm", str(path)]) == 0
+    assert "unit inferred" not in capsys.readouterr().out
+
+
+def test_a_folder_with_a_multispec_file(tmp_path, capsys):
+    """WAT2 multispec, linear dispersion (published WAT header convention, from memory)."""
+    folder = tmp_path / "night"
+    folder.mkdir()
+    hdu = fits.PrimaryHDU(np.ones((2, 500)))
+    hdu.header["WAT0_001"] = "system=multispec"
+    hdu.header["WAT2_001"] = (
+        'wtype=multispec spec1 = "7 7 0 5000. 0.1 500 0. 1. 2." spec2 = "8 8 0 5060. 0.1 500 0. 1. 2."'
+    )[:68]
+    hdu.header["WAT2_002"] = (
+        'wtype=multispec spec1 = "7 7 0 5000. 0.1 500 0. 1. 2." spec2 = "8 8 0 5060. 0.1 500 0. 1. 2."'
+    )[68:]
+    hdu.writeto(folder / "orders.fits")
+    assert cli.main(["inspect", "--json", str(folder)]) == 0
+    recs = json.loads(capsys.readouterr().out)
+    assert len(recs) == 1 and recs[0]["format"] == "fits_multispec" and recs[0]["orders"] == 2
+    assert recs[0]["wavelength_min_A"] == pytest.approx(5000.0)
+    assert recs[0]["wavelength_max_A"] == pytest.approx(5060.0 + 0.1 * 499)
