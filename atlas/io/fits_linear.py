@@ -4,7 +4,7 @@ Layout: an image whose axis 1 is the dispersion axis with ``CTYPE1 = 'LINEAR'``
 or no ``CTYPE1`` at all, and either
 
 * ``CRVAL1``, ``CRPIX1`` (default 0, as in Paper I) and the step ``CD1_1`` (preferred, as in FITS
-  WCS Paper I, Greisen & Calabretta 2002, A&A 395, 1061, sect. 2.1.2) or ``CDELT1``:
+  WCS Paper I, Greisen & Calabretta 2002, A&A 395, 1061; from memory) or ``CDELT1``:
   ``x(p) = CRVAL1 + step (p - CRPIX1)`` for pixel ``p`` = 1, 2, ... (Paper I, eq. 1-3);
 * or ``W0`` (first pixel) and ``WPC`` (step per pixel): ``x(p) = W0 + WPC (p - 1)``
   (common practice).

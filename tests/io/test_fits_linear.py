@@ -2,7 +2,7 @@
 
 Files are written here with astropy following FITS WCS Paper I (Greisen &
 Calabretta 2002, A&A 395, 1061: ``x = CRVAL1 + CD1_1 (p - CRPIX1)``, CD taking
-precedence over CDELT, sect. 2.1.2) and Paper III (Greisen et al. 2006, A&A 446,
+precedence over CDELT, CRPIX1 defaulting to 0; from memory) and Paper III (Greisen et al. 2006, A&A 446,
 747) for ``WAVE``; ``DC-FLAG``, ``W0``/``WPC`` and ``AIRORVAC`` as the published
 header convention describes them (from memory).  Expected wavelengths are
 computed in each test from those formulas.
@@ -69,7 +69,8 @@ def test_dc_flag_one_is_log10_and_crpix_defaults_to_zero(tmp_path):
         tmp_path / "c.fits", np.ones(N), CTYPE1="LINEAR", CRVAL1=3.6, CDELT1=2e-5, DC_FLAG=1
     )
     ds = atlas.io.read(path)
-    # CRPIX1 absent: 0.0 (Paper I, sect. 2.1.2), so pixel p sits at CRVAL1 + CDELT1 * p
+    # CRPIX1 absent: 0.0 (Paper I, from memory; astropy.wcs/wcslib default the same),
+    # so pixel p sits at CRVAL1 + CDELT1 * p
     np.testing.assert_allclose(ds["wavelength"].values, 10 ** (3.6 + 2e-5 * P), rtol=1e-12)
     assert ds["wavelength"].attrs["medium"] == "unknown"
 
