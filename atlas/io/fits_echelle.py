@@ -73,7 +73,11 @@ def read(path, *, wave_unit=None, medium=None, **_options):
                 unc = to_sigma(np.asarray(h.data, dtype=np.float64), kind)
                 break
         unit, note = unit_or_inferred(
-            hdul[wi].header.get("BUNIT"), wave_unit, wave, p, "BUNIT of the WAVELENGTH image"
+            fitsutil.wave_image_unit(hdul[wi].header),
+            wave_unit,
+            wave,
+            p,
+            "BUNIT/CUNIT1 of the WAVELENGTH image",
         )
         file_medium = (
             fitsutil.header_medium(hdul[wi].header)

@@ -83,7 +83,11 @@ def read(path, *, wave_unit=None, medium=None, **_options):
             # no WCS, but a WAVELENGTH image beside the flux (the one-order echelle layout)
             raw = np.asarray(wave_hdu.data, dtype=np.float64).reshape(-1)
             unit, note = unit_or_inferred(
-                wave_hdu.header.get("BUNIT"), wave_unit, raw, p, "BUNIT of the WAVELENGTH image"
+                fitsutil.wave_image_unit(wave_hdu.header),
+                wave_unit,
+                raw,
+                p,
+                "BUNIT/CUNIT1 of the WAVELENGTH image",
             )
             wave_A = validate.to_angstrom(raw, unit)
             file_medium = (

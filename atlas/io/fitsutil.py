@@ -297,3 +297,8 @@ def first_image(hdul):
         if hdu.is_image and hdu.header.get("NAXIS", 0) >= 1 and hdu.header.get("NAXIS1", 0) > 0:
             return i
     return None
+
+
+def wave_image_unit(h) -> str | None:
+    """The unit of a wavelength image: its ``BUNIT``, else its ``CUNIT1``, else None."""
+    return _text(h, "BUNIT") or _text(h, "CUNIT1")

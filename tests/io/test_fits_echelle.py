@@ -81,3 +81,28 @@ def test_one_empty_order_is_masked_not_refused(tmp_path):
     path, _, _ = _echelle(tmp_path / "e.fits", flux=flux)
     ds = atlas.io.read(path)
     assert ds["mask"].values[2].all() and not ds["mask"].values[[0, 1, 3]].any()
+
+
+def test_wavelength_image_unit_from_cunit1_or_inferred(tmp_path):
+    """Unit from CUNIT1 when BUNIT is absent; none at all: inferred from the range
+    (200-3,000 nm, common practice); 1 nm = 10 Å (SI)."""
+    starts = 500.0 + 4.0 * np.arange(ORDERS)
+    wave = starts[:, None] + 0.025 * np.arange(PIX)[None, :]
+    path, _, _ = _echelle(tmp_path / "c.fits", wave=wave, wave_unit=None)
+    with fits.open(path, mode="update") as hdul:
+        hdul["WAVELENGTH"].header["CUNIT1"] = "nm"
+    ds = atlas.io.read(path)
+    np.testing.assert_allclose(ds["wavelength"].values, wave * 10.0)
+    assert "wave_unit_inferred" not in ds.attrs
+    path, _, _ = _echelle(tmp_path / "n.fits", wave=wave, wave_unit=None)
+    ds = atlas.io.read(path)
+    np.testing.assert_allclose(ds["wavelength"].values, wave * 10.0)
+    assert "inferred as nm" in ds.attrs["wave_unit_inferred"]
+    one = tmp_path / "one.fits"
+    fits.HDUList(
+        [fits.PrimaryHDU(np.ones(PIX)), fits.ImageHDU(wave[0] / 1000.0, name="WAVELENGTH")]
+    ).writeto(one)
+    ds = atlas.io.read(one)
+    assert ds.attrs["format"] == "fits_image"
+    np.testing.assert_allclose(ds["wavelength"].values, wave[0] * 10.0)  # µm -> Å
+    assert "inferred as µm" in ds.attrs["wave_unit_inferred"]

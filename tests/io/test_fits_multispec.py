@@ -200,3 +200,13 @@ def test_missing_spec_for_a_line(tmp_path):
     path = _write(tmp_path / "m.fits", np.ones((3, N)), [_spec(1, 0, 5000.0, 0.1, N)] * 2)
     with pytest.raises(InputError, match="spec3 missing"):
         atlas.io.read(path)
+
+
+def test_ltv_ltm_map_image_pixels_to_physical_pixels(tmp_path):
+    """Logical l = LTM1_1 p + LTV1 (convention, from memory): a cut starting at physical
+    pixel 11 has LTV1 = -10, so image pixel 1 is p = 11; LTV2 = -1 skips the first line."""
+    specs = [_spec(1, 0, 4000.0, 0.1, 400), _spec(2, 0, 5000.0, 0.1, 400)]
+    path = _write(tmp_path / "cut.fits", np.ones((1, N)), specs, LTV1=-10.0, LTV2=-1.0)
+    ds = atlas.io.read(path)
+    np.testing.assert_allclose(ds["wavelength"].values, 5000.0 + 0.1 * (PIX + 10.0 - 1.0))
+    assert ds.attrs["apertures"] == "2"
