@@ -3,7 +3,8 @@
 Columns are found by name, case-insensitively (see ``WAVE_NAMES``, ``FLUX_NAMES``,
 ``SIGMA_NAMES``, ``VARIANCE_NAMES``, ``IVAR_NAMES``; a quality column from
 ``QUALITY_NAMES`` masks every sample where it is non-zero).  Either one row per sample,
-or a single row whose cells are whole arrays.  The wavelength unit comes from the
+a single row whose cells are whole arrays, or one row per echelle order whose cells
+are that order's arrays.  The wavelength unit comes from the
 column's ``TUNITn`` (converted with astropy.units), else from ``--wave-unit``, else
 inferred from the value range (``validate.infer_unit``); the
 medium from its ``TCTYPn`` (``AWAV`` air, ``WAVE`` vacuum), else from a ``MEDIUM``
@@ -145,14 +146,16 @@ def read(path, *, wave_unit=None, medium=None, **_options):
 
 
 def _column(data, name, path) -> np.ndarray:
-    """One column as a 1-D float array: rows, or the single row's array cell."""
+    """One column as a float array: rows (1-D), the single row's array cell (1-D), or
+    one array cell per row (2-D: one echelle order per row)."""
     try:
         col = np.asarray(data[name])
         if col.ndim == 2 and col.shape[0] == 1:
             col = col[0]
-        if col.ndim != 1:
+        if col.ndim not in (1, 2):
             raise InputError(
-                path, f"column {name!r} has shape {col.shape}; expected one value per row"
+                path,
+                f"column {name!r} has shape {col.shape}; expected one value or one array per row",
             )
         return col.astype(np.float64)
     except (TypeError, ValueError) as exc:

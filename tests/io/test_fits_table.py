@@ -153,3 +153,22 @@ def test_unknown_and_non_length_units(tmp_path):
     path = _table(tmp_path / "b.fits", np.linspace(4000, 4100, N), np.ones(N), wave_unit="Hz")
     with pytest.raises(InputError, match="not a wavelength unit"):
         atlas.io.read(path)
+
+
+def test_one_row_per_order_with_array_cells(tmp_path):
+    """Array columns (FITS Standard 4.0, TFORMn with a repeat count): one order per row."""
+    orders, n = 3, 120
+    wave = 5000.0 + 50.0 * np.arange(orders)[:, None] + 0.2 * np.arange(n)[None, :]
+    flux = np.ones((orders, n)) * np.arange(1, orders + 1)[:, None]
+    cols = [
+        fits.Column(name="WAVE", format=f"{n}D", array=wave, unit="Angstrom"),
+        fits.Column(name="FLUX", format=f"{n}D", array=flux),
+        fits.Column(name="SIGMA", format=f"{n}D", array=np.full((orders, n), 0.1)),
+    ]
+    path = tmp_path / "orders.fits"
+    fits.HDUList([fits.PrimaryHDU(), fits.BinTableHDU.from_columns(cols)]).writeto(path)
+    ds = atlas.io.read(path)
+    assert ds.sizes == {"order": orders, "sample": n}
+    np.testing.assert_array_equal(ds["wavelength"].values, wave)
+    np.testing.assert_array_equal(ds["flux"].values[:, 0], [1.0, 2.0, 3.0])
+    np.testing.assert_allclose(ds["uncertainty"].values, 0.1)
