@@ -15,7 +15,7 @@ from atlas import __version__
 from atlas.errors import InputError
 
 #: Subcommands in the order ``--help`` lists them.
-COMMANDS = ("demo", "build", "serve", "inspect", "measure", "lines", "export")
+COMMANDS = ("demo", "build", "serve", "inspect", "measure", "lines", "export", "verify")
 
 
 def _load(name: str):

@@ -242,6 +242,7 @@ class _Star:
     strip_min_A: np.ndarray
     strip_max_A: np.ndarray
     own: tuple[np.ndarray, np.ndarray] | None = None
+    atlas: object = None  # the atlas.store.Atlas it came from (reads through it)
 
     def own_intervals(self) -> tuple[np.ndarray, np.ndarray]:
         """Each stored strip's own part (overlaps split at their middle), computed once."""
@@ -261,9 +262,8 @@ def _open_star(atlas_path, star_id: str) -> _Star:
                          f"(stars: {known or 'none'})")
     record = dict(atlas.record(star_id))
     ds = atlas.star(star_id)
-    smin = np.asarray(ds["strip_min_A"].values, dtype=np.float64)
-    smax = np.asarray(ds["strip_max_A"].values, dtype=np.float64)
-    return _Star(record, dict(atlas.catalog), ds, smin, smax)
+    smin, smax = (np.asarray(a, dtype=np.float64) for a in atlas.load(star_id, "strip_min_A", "strip_max_A"))
+    return _Star(record, dict(atlas.catalog), ds, smin, smax, atlas=atlas)
 
 
 def _window(star: _Star, strip: int, lo_A: float, hi_A: float, max_points: int, flux: str):
@@ -273,8 +273,11 @@ def _window(star: _Star, strip: int, lo_A: float, hi_A: float, max_points: int, 
     """
     from atlas import lod
 
-    w = lod.window(star.ds, int(strip), lo_A, hi_A, max(2, int(max_points)),
-                   flux="norm" if flux == "normalized" else "raw")
+    kind = "norm" if flux == "normalized" else "raw"
+    if star.atlas is not None:
+        w = star.atlas.window(star.record["id"], int(strip), lo_A, hi_A, max(2, int(max_points)), flux=kind)
+    else:
+        w = lod.window(star.ds, int(strip), lo_A, hi_A, max(2, int(max_points)), flux=kind)
     return (np.asarray(w["wavelength"], dtype=np.float64), np.asarray(w["flux"]),
             int(w.get("level", 0)) > 0)
 

@@ -160,13 +160,12 @@ def _load_from_store(url: str, strip: int) -> _Strip:
     )
 
 
-def _strip_data(star, strip: int) -> _Strip:
+def _strip_data(star, strip: int, url: str | None) -> _Strip:
     n_strips = int(star.sizes["strip"])
     if not (isinstance(strip, int | np.integer) and 0 <= int(strip) < n_strips):
         raise InputError("strip", f"must be a whole number from 0 to {n_strips - 1}, not {strip!r}")
     strip = int(strip)
-    url = star.encoding.get("striae_store") if hasattr(star, "encoding") else None
-    if url is None:  # an in-memory star: decode directly, no cache
+    if url is None:  # an in-memory star (or no store named): decode directly, no cache
         row = star.isel(strip=strip)
         n = int(row["strip_samples"]) if "strip_samples" in row else int(np.isfinite(row["wavelength"].values).sum())
         return _from_arrays(row["wavelength"].values, row["flux"].values, row["norm_flux"].values,
@@ -200,11 +199,13 @@ def _interleave(lev: dict, var: str, b0: int, b1: int):
     return x, y
 
 
-def window(star, strip: int, lo_A: float, hi_A: float, max_points: int, flux: str = "norm") -> dict:
+def window(star, strip: int, lo_A: float, hi_A: float, max_points: int, flux: str = "norm",
+           url: str | None = None) -> dict:
     """Points to draw for one strip between ``lo_A`` and ``hi_A`` (Å, vacuum), at most ``max_points``.
 
-    ``star`` is a Dataset from :meth:`atlas.store.Atlas.star` (or any Dataset with the
-    star-store layout).  ``flux`` is ``norm`` (normalised flux) or ``raw``.  Returns a dict:
+    ``star`` is a Dataset with the star-store layout; ``url``, the store it was opened
+    from, lets the strip be read from the store alone (and cached per process):
+    :meth:`atlas.store.Atlas.window` passes it.  ``flux`` is ``norm`` (normalised flux) or ``raw``.  Returns a dict:
     ``wavelength`` and ``flux`` (float32 arrays, wavelength non-decreasing; masked samples
     are NaN), ``level`` (0 = real samples, j = envelopes of 4**j samples per bin),
     ``step`` (samples per point pair, 1 for real samples) and ``n_source`` (real samples
@@ -216,7 +217,7 @@ def window(star, strip: int, lo_A: float, hi_A: float, max_points: int, flux: st
     max_points = int(max_points)
     if max_points < 2:
         raise InputError("max_points", f"must be at least 2, not {max_points}")
-    data = _strip_data(star, strip)
+    data = _strip_data(star, strip, url)
     lo_A, hi_A = float(lo_A), float(hi_A)
     i0 = int(np.searchsorted(data.wave, lo_A, side="left"))
     i1 = int(np.searchsorted(data.wave, hi_A, side="right"))

@@ -15,7 +15,7 @@ from pathlib import Path
 
 import numpy as np
 
-from atlas import lod, store
+from atlas import store
 from atlas.errors import InputError
 
 
@@ -68,11 +68,8 @@ class AtlasData:
         """Per-strip (min, max) wavelengths, vacuum observed Å (float64 arrays)."""
         b = self._bounds.get(star_id)
         if b is None:
-            ds = self.dataset(star_id)
-            b = (
-                np.asarray(ds["strip_min_A"].values, dtype=np.float64),
-                np.asarray(ds["strip_max_A"].values, dtype=np.float64),
-            )
+            lo, hi = self.atlas.load(star_id, "strip_min_A", "strip_max_A")
+            b = (np.asarray(lo, dtype=np.float64), np.asarray(hi, dtype=np.float64))
             self._bounds[star_id] = b
         return b
 
@@ -83,7 +80,7 @@ class AtlasData:
         ``atlas.lod.window``: ``wavelength`` and ``flux`` float32, ``level`` (0 = real
         samples), at most ``max_points`` points.
         """
-        return lod.window(self.dataset(star_id), int(strip), lo_A, hi_A, max_points, flux=flux)
+        return self.atlas.window(star_id, int(strip), lo_A, hi_A, max_points, flux=flux)
 
     def span(self, star_id: str, lo_A: float, hi_A: float, max_points: int,
              flux: str = "norm") -> dict:
@@ -129,9 +126,8 @@ class AtlasData:
         n_levels = int(self.dataset(star_id).attrs.get("lod_levels", 0))
         if n_levels > 0:
             lev = self.atlas.level(star_id, n_levels)
-            w = np.asarray(lev["wave_min"].values, dtype=np.float64).ravel()
-            lo_f = np.asarray(lev[f"{var}_min"].values, dtype=np.float64).ravel()
-            hi_f = np.asarray(lev[f"{var}_max"].values, dtype=np.float64).ravel()
+            w, lo_f, hi_f = (np.asarray(a, dtype=np.float64).ravel() for a in store.read.damage_guarded(
+                star_id, lambda: [lev[k].values for k in ("wave_min", f"{var}_min", f"{var}_max")]))
             wave = np.concatenate([w, w])
             fl = np.concatenate([lo_f, hi_f])
         else:  # no stored levels: ask each strip for a few points
@@ -156,14 +152,8 @@ class AtlasData:
         """
         if star_id in self._features:
             return self._features[star_id]
-        import xarray as xr
-
-        url = store.store_url(self.atlas.url, self.record(star_id)["store"])
-        try:
-            ds = xr.open_zarr(url, group="features", consolidated=True)
-            df = ds.to_dataframe().reset_index(drop=True)
-        except Exception:  # no such group (yet)
-            df = None
+        ds = self.atlas.features(star_id)
+        df = None if ds is None else ds.to_dataframe().reset_index(drop=True)
         self._features[star_id] = df
         return df
 

@@ -8,6 +8,8 @@ Each browser session gets its own :class:`~atlas.app.state.ViewState` and
 
 from __future__ import annotations
 
+import html
+import logging
 from urllib.parse import urlencode
 
 import panel as pn
@@ -17,6 +19,8 @@ from panel.io.resources import LOCAL_DIST
 from atlas.app.data import open_view_atlas
 from atlas.app.state import URL_PARAMS, ViewState, parse_search, to_query
 from atlas.app.viewer import KEYS_JS, Viewer
+
+_log = logging.getLogger("striae.serve")
 
 TITLE = "Striae atlas"
 
@@ -74,7 +78,7 @@ def create_session(atlas_path, query: str | None = None, keep: dict | None = Non
     state.param.update(**values)
     if not data.star_ids:
         return pn.pane.Alert("This atlas holds no stars yet.", alert_type="warning")
-    viewer = Viewer(data, state, notices)
+    viewer = _viewer_avoiding_damage(data, state, notices)
     if keep is not None:
         keep["viewer"] = viewer
     if loc is not None and pn.state.curdoc is not None and pn.state.curdoc.session_context is not None:
@@ -95,6 +99,39 @@ def create_session(atlas_path, query: str | None = None, keep: dict | None = Non
     return viewer.layout
 
 
+def _viewer_avoiding_damage(data, state, notices):
+    """The session's Viewer; a star whose store is damaged is named in a notice and the
+    session opens on the next readable star instead."""
+    from atlas.store import DamagedStar
+
+    tried = []
+    while True:
+        try:
+            return Viewer(data, state, notices + [d.message for d in tried])
+        except DamagedStar as exc:
+            tried.append(exc)
+            left = [s for s in data.star_ids if s not in {d.star_id for d in tried}]
+            if not left:
+                raise
+            state.param.update(star=left[0], page=1, lo=None, hi=None, compare="")
+
+
+def safe_session(atlas_path):
+    """:func:`create_session`, but a failure shows a short notice in the browser; the
+    traceback goes to the server's log only (never paths or code to a visitor)."""
+    from atlas.store import DamagedStar
+
+    try:
+        return create_session(atlas_path)
+    except DamagedStar as exc:
+        _log.warning("session: %s (%s)", exc.message, exc.detail)
+        return pn.pane.Alert(html.escape(exc.message), alert_type="danger")
+    except Exception:
+        _log.exception("session could not be made")
+        return pn.pane.Alert("This view could not be made; the server's log says why.",
+                             alert_type="danger")
+
+
 def serve(atlas_path, port: int = 5006, address: str = "127.0.0.1", procs: int = 1,
           show: bool = False):
     """Serve the atlas until interrupted (blocks)."""
@@ -104,7 +141,7 @@ def serve(atlas_path, port: int = 5006, address: str = "127.0.0.1", procs: int =
     pn.extension(notifications=False)
     origins = [f"{address}:{port}", f"localhost:{port}", f"127.0.0.1:{port}"]
     pn.serve(
-        {"/": lambda: create_session(atlas_path)},
+        {"/": lambda: safe_session(atlas_path)},
         port=port, address=address, num_procs=procs, show=show, title=TITLE,
         websocket_origin=origins, start=True, print_url=False,
     )

@@ -46,6 +46,7 @@ from atlas.app.state import (
     parse_query,
     parse_search,
 )
+from atlas.store import DamagedStar
 
 C_KMS = 299_792.458  # CODATA exact speed of light
 DEFAULT_PX = 1100  # plot width assumed before the browser reports it
@@ -1053,9 +1054,14 @@ class Viewer:
     def refresh(self, changed=None):
         """Make every view match the state (one held document update)."""
         with pn.io.hold():
-            self.update_strips()
-            self.update_overview()
-            self.update_compare()
+            for update in (self.update_strips, self.update_overview, self.update_compare):
+                try:
+                    update()
+                except DamagedStar as exc:  # say so; every other star stays readable
+                    self.note(exc.message)
+                    if update == self.update_strips:
+                        for slot in self.slots:
+                            slot.fig.visible = False
             self.update_marks_widgets()
             self.update_side()
             self.refresh_notice()

@@ -7,6 +7,7 @@ import sys
 import tomllib
 
 from atlas.errors import InputError
+from atlas.store.catalog import LOCK_TIMEOUT_S
 
 HELP = "build an atlas from spectrum files, or from a recipe file (.toml)"
 EXAMPLE = (
@@ -46,6 +47,9 @@ def add_arguments(parser) -> None:
                         " write --site=-33.9,18.5,10 when the latitude is negative")
     parser.add_argument("--radec", metavar="RA,DEC", help="target coordinates: degrees, or sexagesimal (RA in hours)")
     parser.add_argument("--time", metavar="ISO", help="mid-exposure time, ISO 8601 UTC")
+    parser.add_argument("--lock-timeout", type=str, metavar="S", dest="lock_timeout",
+                        help="seconds to wait while another build commits into the same atlas"
+                        " (default 600); then stop, committing nothing")
     parser.add_argument("--quiet", action="store_true", help="no progress bar")
     parser.add_argument("--recursive", action="store_true",
                         help="also take the files in sub-folders of a folder given as input")
@@ -183,8 +187,12 @@ def resolve(args) -> dict:
         for path, reason in unreadable[:-1]:
             print(f"striae: {path}: {reason}", file=sys.stderr)
         raise InputError(*(unreadable[-1] if unreadable else ("FILE", "no spectrum files to build")))
+    lock_timeout = _number(getattr(args, "lock_timeout", None), "--lock-timeout")
+    if lock_timeout is not None and not lock_timeout >= 0:
+        raise InputError("--lock-timeout", f"must be 0 or more seconds, not {args.lock_timeout!r}")
     return {"inputs": inputs, "unreadable": unreadable, "out": out, "options": options, "workers": workers,
-            "scheduler": scheduler, "force": bool(force)}
+            "scheduler": scheduler, "force": bool(force),
+            "lock_timeout_s": LOCK_TIMEOUT_S if lock_timeout is None else lock_timeout}
 
 
 def run(args) -> int:
@@ -206,9 +214,32 @@ def run(args) -> int:
     sys.stdout.flush()
     report = build_atlas(
         r["inputs"], r["out"], opts, force=r["force"], workers=r["workers"], scheduler=r["scheduler"],
-        progress=False if args.quiet else None,
+        progress=False if args.quiet else None, lock_timeout_s=r["lock_timeout_s"], on_star=_said,
     )
-    if report.committed:
-        print(f"atlas {r['out']}: {len(report.catalog['stars'])} star(s)"
-              f" ({len(report.built)} built, {len(report.kept)} unchanged)")
-    return 2 if report.failed or r["unreadable"] or not report.committed else 0
+    code = tell(report, r["out"])
+    return 2 if r["unreadable"] else code
+
+
+def _said(path: str, result: dict) -> None:
+    """Said as each star finishes (above the progress bar)."""
+    from tqdm import tqdm
+
+    from atlas.build.pipeline import describe
+
+    if "error" not in result:
+        tqdm.write(f"built {result['slug']} {describe(result)}", file=sys.stdout)
+
+
+def tell(report, out: str) -> int:
+    """The build's outcome on the terminal; the exit code (2 when a file failed or nothing
+    was committed)."""
+    for path, reason in report.failed:
+        print(f"striae: {path}: {reason}", file=sys.stderr)
+    for rid in report.kept:
+        print(f"kept {rid} (unchanged)")
+    if not report.committed:
+        print("nothing built: the atlas was left as it was")
+        return 2
+    print(f"atlas {out}: {len(report.catalog['stars'])} star(s)"
+          f" ({len(report.built)} built, {len(report.kept)} unchanged)")
+    return 2 if report.failed else 0

@@ -67,12 +67,14 @@ def _spectrum_of_atlas(atlas_path, star_id):
     at = open_atlas(atlas_path)
     rec = at.record(star_id)
     st = at.star(star_id)
-    w = np.asarray(st["wavelength"].values, dtype=np.float64).ravel()
+    names = [n for n in ("wavelength", "flux", "uncertainty", "continuum", "mask") if n in st]
+    got = dict(zip(names, at.load(star_id, *names), strict=True))
+    w = np.asarray(got["wavelength"], dtype=np.float64).ravel()
     keep = np.isfinite(w)
-    flux = np.asarray(st["flux"].values, dtype=np.float64).ravel()
-    unc = np.asarray(st["uncertainty"].values, dtype=np.float64).ravel() if "uncertainty" in st else None
-    cont = np.asarray(st["continuum"].values, dtype=np.float64).ravel() if "continuum" in st else None
-    mask = np.asarray(st["mask"].values, dtype=bool).ravel() if "mask" in st else None
+    flux = np.asarray(got["flux"], dtype=np.float64).ravel()
+    unc = np.asarray(got["uncertainty"], dtype=np.float64).ravel() if "uncertainty" in got else None
+    cont = np.asarray(got["continuum"], dtype=np.float64).ravel() if "continuum" in got else None
+    mask = np.asarray(got["mask"], dtype=bool).ravel() if "mask" in got else None
     # strips may overlap: keep each wavelength once
     w_u, first = np.unique(w[keep], return_index=True)
     idx = np.flatnonzero(keep)[first]

@@ -158,10 +158,9 @@ def build_test_atlas(folder, stars=TEST_STARS):
     for target, n, start, rv in stars:
         wave, flux, _ = make_star_arrays(n, start_A=start, rv_kms=rv, lines_vac_A=stellar)
         paths.append(write_csv(folder / f"{target}.csv", wave, flux, target))
-    import io
 
     out = folder / "atlas"
-    build_atlas([str(p) for p in paths], str(out), progress=False, out=io.StringIO(), err=io.StringIO())
+    build_atlas([str(p) for p in paths], str(out), progress=False)
     set_known_velocities(out)
     return out
 

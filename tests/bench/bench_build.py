@@ -197,7 +197,7 @@ if sys.argv[4] == "storage-only":  # leave out the measurement card (RV, class, 
     card.star_measurements = lambda ds, **kw: (dict.fromkeys(card.MEASUREMENT_KEYS), [])
 base = psutil.Process().memory_info().rss
 t0 = time.perf_counter()
-rep = build_atlas([sys.argv[1]], sys.argv[2], progress=False, out=open(os.devnull, "w"))
+rep = build_atlas([sys.argv[1]], sys.argv[2], progress=False)
 t = time.perf_counter() - t0
 try:  # this process's own high-water mark; ru_maxrss can carry the parent's over fork + exec
     with open("/proc/self/status") as fh:

@@ -31,7 +31,6 @@ def browser_type_launch_args(browser_type_launch_args):
 
 @pytest.fixture(scope="module")
 def exported_html(tmp_path_factory):
-    import io
 
     from atlas.build import BuildOptions, build_atlas
     from atlas.export import export_html
@@ -40,7 +39,7 @@ def exported_html(tmp_path_factory):
     root = tmp_path_factory.mktemp("export-html")
     spec = write_spectrum(root / "alpha.fits", name="Test Star Alpha", n=12_000)
     build_atlas([str(spec)], str(root / "atlas"), BuildOptions(strip_kms=1000.0),
-                progress=False, out=io.StringIO(), err=io.StringIO())
+                progress=False)
     out = root / "view.html"
     export_html(root / "atlas", "test-star-alpha", out, lo=6540.0, hi=6600.0,
                 marks=[[6560.0, 6566.0, NOTE]])

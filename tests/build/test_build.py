@@ -23,7 +23,7 @@ DESIGN_RECORD_KEYS = {  # ../shared/DESIGN.md, "Atlas on disk"
     "id", "name", "store", "source", "source_sha256", "wavelength_min_A", "wavelength_max_A",
     "medium", "samples", "strips", "barycentric_kms", "rv_kms", "rv_err_kms", "teff_k",
     "spectral_class", "snr", "resolving_power", "colour_srgb",
-    "rv_obs_kms",  # extension: DEVELOPERS.md "Atlas on disk"
+    "rv_obs_kms", "store_sha256", "source_path",  # extensions: DEVELOPERS.md "Atlas on disk"
 }
 
 
@@ -283,7 +283,7 @@ def test_block_by_block_store_equals_the_whole_star_store(tmp_path, monkeypatch,
     """The streamed writer (small blocks forced) stores the same arrays, metadata and attributes."""
     import zarr
 
-    from atlas import build
+    from atlas.build import star as build
     from atlas.store import write_star
 
     rng = np.random.default_rng(11)

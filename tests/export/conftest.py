@@ -6,8 +6,6 @@ line-list wavelengths); nothing here is a check value of physics.
 
 from __future__ import annotations
 
-import io
-
 import numpy as np
 import pytest
 from astropy.io import fits
@@ -54,6 +52,6 @@ def small_atlas(tmp_path_factory):
     b = write_spectrum(root / "nosite.fits", name="Test Star Nosite", with_site=False, seed=4)
     out = root / "atlas"
     report = build_atlas([str(a), str(b)], str(out), BuildOptions(strip_kms=STRIP_KMS),
-                         progress=False, out=io.StringIO(), err=io.StringIO())
+                         progress=False)
     assert report.committed and not report.failed, report.failed
     return out

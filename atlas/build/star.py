@@ -1,21 +1,13 @@
-"""The build: spectrum files -> strips, continuum, envelopes, measurements -> an atlas on disk.
-
-One function does one star from file to finished store (:func:`build_star`); it runs in
-this process or on dask.distributed workers unchanged.  :func:`build_atlas` decides
-which stars need building (a star whose input bytes and build options are unchanged
-is kept as it is), runs the per-star work serially or on a cluster, assigns unique
-ids, commits the catalog and removes stores the new catalog no longer names.
-"""
+"""One star, from file to finished store: read, vacuum, cut, continuum, envelopes, store,
+measurements, features, seal (:func:`build_star`).  It runs in this process or on
+dask.distributed workers unchanged; :mod:`atlas.build.pipeline` plans and commits."""
 
 from __future__ import annotations
 
 import dataclasses
-import datetime as _dt
-import glob
 import hashlib
 import json
 import os
-import sys
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -25,7 +17,7 @@ from atlas import __version__, store
 from atlas.continuum import ContinuumSettings, fit_continuum
 from atlas.errors import InputError
 from atlas.lod import FACTOR, build_levels
-from atlas.spectrum import is_echelle, medium_of, sha256_of
+from atlas.spectrum import is_echelle, medium_of
 from atlas.strips import (
     DEFAULT_OVERLAP,
     StripPlan,
@@ -81,6 +73,18 @@ class BuildOptions:
         d["site"] = list(self.site) if self.site is not None else None
         d["radec"] = list(self.radec) if self.radec is not None else None
         return d
+
+    @classmethod
+    def from_dict(cls, d: dict) -> BuildOptions:
+        """The options a catalog recorded (``as_dict``), e.g. to rebuild a damaged star."""
+        d = dict(d or {})
+        fields = set(cls.__dataclass_fields__)
+        cont = ContinuumSettings(**{k: v for k, v in (d.pop("continuum", None) or {}).items()
+                                    if k in ContinuumSettings.__dataclass_fields__})
+        for k in ("site", "radec"):
+            if d.get(k) is not None:
+                d[k] = tuple(d[k])
+        return cls(**{k: v for k, v in d.items() if k in fields}, continuum=cont)
 
 
 # ---------------------------------------------------------------- one star, in memory
@@ -325,6 +329,8 @@ def build_star(path: str, options: BuildOptions, atlas_url: str, sha: str, in_us
     }
     key = _content_key(sha, options, path)
     sname = store.fresh_store_name(slug, key, atlas_url, set(in_use))
+    while not store.claim(atlas_url, sname):  # another build took that path just now
+        sname = store.fresh_store_name(slug, os.urandom(16).hex(), atlas_url, set(in_use))
     # Store first, then measure: the two largest memory peaks never overlap.
     write_star_arrays(atlas_url, sname, seq, plan, attrs)
     # echelle input: the orders' own continua (their blaze) normalise the merged spectrum
@@ -364,6 +370,7 @@ def build_star(path: str, options: BuildOptions, atlas_url: str, sha: str, in_us
     else:
         notes.append("no features: no radial velocity to place the line list")
     del vac
+    store_sha = store.seal(atlas_url, sname)
     if plan.mode == "velocity":
         desc = f"{plan.n_strips} strips of {plan.width:g} km/s" + (" (chosen from the sampling)" if options.strip_kms is None else "")
     elif plan.mode == "equal_A":
@@ -382,6 +389,8 @@ def build_star(path: str, options: BuildOptions, atlas_url: str, sha: str, in_us
         "samples": n_samples,
         "strips": plan.n_strips,
         **measurements,
+        "store_sha256": store_sha,
+        "source_path": os.path.abspath(path) if "://" not in str(path) else str(path),
     }
     return {"record": record, "slug": slug, "notes": notes, "describe": desc}
 
@@ -397,259 +406,3 @@ def build_star_safe(path: str, options: BuildOptions, atlas_url: str, sha: str, 
     except Exception as exc:  # a broken file must not stop the others
         reason = " ".join(str(exc).split()) or type(exc).__name__
         return {"error": f"cannot build: {type(exc).__name__}: {reason[:300]}"}
-
-
-# ---------------------------------------------------------------- many stars
-
-
-def expand_inputs(patterns, base: str | None = None) -> list[str]:
-    """Files named or matched by glob patterns (relative to ``base``), sorted, without repeats."""
-    out: list[str] = []
-    for pat in patterns:
-        p = os.path.expanduser(str(pat))
-        if base is not None and not os.path.isabs(p):
-            p = os.path.join(base, p)
-        if glob.has_magic(p):
-            hits = sorted(h for h in glob.glob(p) if os.path.isfile(h))
-            if not hits:
-                raise InputError(str(pat), "no file matches this pattern")
-            out.extend(hits)
-        else:
-            if not os.path.exists(p):
-                raise InputError(str(pat), "no such file")
-            if os.path.isdir(p):
-                raise InputError(str(pat), "is a folder; give the spectrum files (e.g. folder/*.fits)")
-            out.append(p)
-    seen, uniq = set(), []
-    for p in out:
-        key = os.path.realpath(p)
-        if key not in seen:
-            seen.add(key)
-            uniq.append(p)
-    return uniq
-
-
-def _now() -> str:
-    return _dt.datetime.now(_dt.UTC).strftime("%Y-%m-%dT%H:%M:%SZ")
-
-
-@dataclass
-class BuildReport:
-    """What a build did: ids built, kept and failed (path, reason), and whether it committed."""
-
-    built: list = field(default_factory=list)
-    kept: list = field(default_factory=list)
-    failed: list = field(default_factory=list)
-    committed: bool = False
-    catalog: dict | None = None
-
-
-def _say(msg: str, out=None):
-    from tqdm import tqdm
-
-    tqdm.write(msg, file=out or sys.stdout)
-
-
-def build_atlas(
-    inputs: list[str],
-    atlas_url: str,
-    options: BuildOptions | None = None,
-    *,
-    force: bool = False,
-    workers: int = 1,
-    scheduler: str | None = None,
-    progress: bool | None = None,
-    out=None,
-    err=None,
-) -> BuildReport:
-    """Build (or update) the atlas at ``atlas_url`` from spectrum files; returns a report.
-
-    Stars whose file bytes, options and tool version are unchanged keep their store
-    (``force`` rebuilds all).  Files that fail are reported one line each on ``err``
-    and left out; the catalog is committed when at least one star is good.
-    """
-    from tqdm import tqdm
-
-    options = options or BuildOptions()
-    out = out or sys.stdout
-    err = err or sys.stderr
-    atlas_url = store.normalise(atlas_url)
-    report = BuildReport()
-    old = store.read_catalog(atlas_url)
-    in_use = frozenset(r["store"] for r in (old or {}).get("stars", []))
-    opts = options.as_dict()
-    reusable = {}
-    if old and not force and old.get("options") == opts and old.get("tool_version") == __version__:
-        for rec in old["stars"]:
-            reusable.setdefault((rec.get("source"), rec.get("source_sha256")), []).append(rec)
-
-    plan: list[tuple[str, str, dict | None]] = []  # (path, sha, reused record)
-    for path in inputs:
-        try:
-            sha = sha256_of(path)
-        except OSError as exc:
-            report.failed.append((path, f"cannot read: {exc.strerror or exc}"))
-            plan.append((path, "", None))
-            continue
-        cands = reusable.get((os.path.basename(path), sha))
-        rec = None
-        while cands:
-            c = cands.pop(0)
-            if store.store_exists(atlas_url, c["store"]):
-                rec = c
-                break
-        plan.append((path, sha, rec))
-
-    todo = [(p, s) for p, s, r in plan if r is None and s]
-    results: dict[str, dict] = {}
-    bar = tqdm(total=len(todo), unit="star", desc="building", disable=(not progress) if progress is not None else None, file=err)
-    try:
-        if todo and (workers > 1 or scheduler):
-            results = _run_dask(todo, options, atlas_url, in_use, workers, scheduler, bar)
-        else:
-            for p, s in todo:
-                results[p] = build_star_safe(p, options, atlas_url, s, in_use)
-                bar.update(1)
-    finally:
-        bar.close()
-
-    taken: set[str] = {r["id"] for _, _, r in plan if r is not None}
-    records = []
-    for path, _sha, rec in plan:
-        if rec is not None:
-            records.append(rec)
-            report.kept.append(rec["id"])
-            continue
-        res = results.get(path)
-        if res is None:
-            continue  # hashing failed, already reported
-        if "error" in res:
-            report.failed.append((path, res["error"]))
-            continue
-        r = dict(res["record"])
-        r["id"] = store.unique_id(res["slug"], taken)
-        taken.add(r["id"])
-        records.append({k: r.get(k) for k in store.RECORD_KEYS})
-        report.built.append(r["id"])
-        extra = "; ".join(res["notes"])
-        _say(f"built {r['id']} from {r['source']}: {r['samples']} samples, {res['describe']}"
-             + (f" ({extra})" if extra else ""), out)
-    for path, reason in report.failed:
-        print(f"striae: {path}: {reason}", file=err)
-    for rid in report.kept:
-        _say(f"kept {rid} (unchanged)", out)
-
-    if not records:
-        _say("nothing built: the atlas was left as it was", out)
-        return report
-    records = [{k: r.get(k) for k in store.RECORD_KEYS} for r in records]
-    for r in records:
-        for k in ("barycentric_kms", "rv_kms", "rv_err_kms", "rv_obs_kms", "teff_k", "snr",
-                  "resolving_power", "wavelength_min_A", "wavelength_max_A"):
-            r[k] = store.json_number(r[k])
-    catalog = {
-        "format": store.FORMAT,
-        "tool_version": __version__,
-        "built_utc": _now(),
-        "options": opts,
-        "stars": records,
-    }
-    store.write_catalog(atlas_url, catalog)
-    report.committed = True
-    report.catalog = catalog
-    store.remove_stale(atlas_url, catalog)
-    return report
-
-
-def one_blas_thread() -> int:
-    """Set every OpenBLAS loaded in this process to one thread; returns how many were set.
-
-    A forked worker keeps the OpenBLAS thread pools numpy and scipy made in the parent
-    (one thread per core), so ``OMP_NUM_THREADS=1`` comes too late for it; two workers
-    on two cores then each ran two BLAS threads, and a 20-star build took about 15 %
-    longer here.  Finds the libraries in ``/proc/self/maps``; elsewhere it does nothing.
-    """
-    import ctypes
-
-    try:
-        with open("/proc/self/maps") as fh:
-            paths = sorted({ln.split()[-1] for ln in fh if "openblas" in ln.lower() and ".so" in ln})
-    except OSError:
-        return 0
-    names = ("openblas_set_num_threads", "openblas_set_num_threads64_",
-             "scipy_openblas_set_num_threads", "scipy_openblas_set_num_threads64_")
-    done = 0
-    for path in paths:
-        try:
-            lib = ctypes.CDLL(path)
-        except OSError:
-            continue
-        for name in names:
-            fn = getattr(lib, name, None)
-            if fn is not None:
-                fn(1)
-                done += 1
-                break
-    return done
-
-
-def _run_dask(todo, options, atlas_url, in_use, workers, scheduler, bar) -> dict:
-    import logging
-
-    from dask.distributed import Client, LocalCluster, as_completed
-
-    cluster = None
-    if scheduler:
-        try:
-            client = Client(scheduler, timeout="20s")
-        except (OSError, TimeoutError) as exc:
-            raise InputError("--scheduler", f"cannot reach {scheduler}: {exc}") from None
-    else:
-        import dask
-
-        # Workers keep one thread each (no BLAS/OpenMP threads either), but not the low
-        # MALLOC_TRIM_THRESHOLD_ dask sets by default: with it, every large numpy
-        # allocation goes back to the kernel and is faulted in again, which made each
-        # star about 1.5x slower here than in a plain process.
-        environ = {k: v for k, v in dict(dask.config.get("distributed.nanny.pre-spawn-environ", {})).items()
-                   if k != "MALLOC_TRIM_THRESHOLD_"}
-        cfg = {"distributed.nanny.pre-spawn-environ": environ,
-               # the workers' sampling profiler (every 10 ms, for the dashboard) took the
-               # GIL from the build often enough to cost several per cent here
-               "distributed.worker.profile.enabled": False}
-        if sys.platform.startswith("linux"):
-            # Forked workers start with this process's modules already imported; spawned
-            # ones import everything again (measured here: cluster start 0.7 s instead
-            # of 1.2 s, plus 0.75 s of imports, shut-down 0.03 s instead of 0.4 s).
-            # zarr, fsspec and OpenBLAS reset their threads in a forked child.
-            cfg["distributed.worker.multiprocessing-method"] = "fork"
-            import atlas.io  # noqa: F401  (what build_star imports, so the workers inherit it)
-            import atlas.measure.card  # noqa: F401
-        with dask.config.set(cfg):
-            cluster = LocalCluster(
-                n_workers=int(workers),
-                threads_per_worker=1,
-                processes=True,
-                dashboard_address=None,  # nobody is told its address: not started at all
-                silence_logs=logging.ERROR,
-            )
-        client = Client(cluster)
-        client.run(one_blas_thread)
-    try:
-        futs = {}
-        for p, s in todo:
-            f = client.submit(build_star_safe, p, options, atlas_url, s, in_use, pure=False)
-            futs[f] = p
-        results = {}
-        for f in as_completed(list(futs)):
-            try:
-                results[futs[f]] = f.result()
-            except Exception as exc:  # a worker died: report it like a bad file
-                results[futs[f]] = {"error": f"cannot build: worker failed ({type(exc).__name__})"}
-            bar.update(1)
-        return results
-    finally:
-        client.close()
-        if cluster is not None:
-            cluster.close()
-
