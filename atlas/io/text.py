@@ -174,25 +174,7 @@ def read(path, *, wave_unit=None, medium=None, **_options):
             p,
             "no spectral axis: no wavelength column in the header (e.g. wavelength_A, wavelength_nm)",
         )
-    lower = [n.lower() for n in names]
-    flux_i = next((lower.index(c) for c in FLUX_NAMES if c in lower), None)
-    if flux_i is None:
-        flux_i = next(
-            (
-                k
-                for k, n in enumerate(lower)
-                if n.startswith("flux") and n not in SIGMA_NAMES + VARIANCE_NAMES + IVAR_NAMES
-            ),
-            None,
-        )
-    if flux_i is None:
-        raise InputError(p, "no flux column in the header (e.g. flux, intensity, counts)")
-    unc_i, kind = None, None
-    for cands, k in ((SIGMA_NAMES, "sigma"), (VARIANCE_NAMES, "variance"), (IVAR_NAMES, "ivar")):
-        hit = next((lower.index(c) for c in cands if c in lower), None)
-        if hit is not None:
-            unc_i, kind = hit, k
-            break
+    flux_i, unc_i, kind = _flux_columns(p, names)
 
     m = _wave_match(names[wave_i])
     col_unit = m.group("u1") or m.group("u2")
@@ -210,6 +192,30 @@ def read(path, *, wave_unit=None, medium=None, **_options):
     return validate.build(
         p, NAME, wave_A, flux, unc, medium=file_medium, medium_option=medium, attrs=attrs
     )
+
+
+def _flux_columns(path, names) -> tuple[int, int | None, str | None]:
+    """Indices of the flux column and of the uncertainty column (with its kind) in a header."""
+    lower = [n.lower() for n in names]
+    flux_i = next((lower.index(c) for c in FLUX_NAMES if c in lower), None)
+    if flux_i is None:
+        flux_i = next(
+            (
+                k
+                for k, n in enumerate(lower)
+                if n.startswith("flux") and n not in SIGMA_NAMES + VARIANCE_NAMES + IVAR_NAMES
+            ),
+            None,
+        )
+    if flux_i is None:
+        raise InputError(path, "no flux column in the header (e.g. flux, intensity, counts)")
+    unc_i, kind = None, None
+    for cands, k in ((SIGMA_NAMES, "sigma"), (VARIANCE_NAMES, "variance"), (IVAR_NAMES, "ivar")):
+        hit = next((lower.index(c) for c in cands if c in lower), None)
+        if hit is not None:
+            unc_i, kind = hit, k
+            break
+    return flux_i, unc_i, kind
 
 
 def _is_number(s: str) -> bool:
