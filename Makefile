@@ -17,7 +17,7 @@ ADDRESS ?= 127.0.0.1
 $(STAMP): pyproject.toml constraints.txt
 	$(PYTHON) -m venv $(VENV)
 	$(BIN)/pip install --quiet --disable-pip-version-check --upgrade pip
-	$(BIN)/pip install --quiet --disable-pip-version-check -c constraints.txt -e '.[test]'
+	$(BIN)/pip install --quiet --disable-pip-version-check -c constraints.txt -e '.[test,remote]'
 	touch $(STAMP)
 
 install: $(STAMP)
