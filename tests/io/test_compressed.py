@@ -99,3 +99,22 @@ def test_errors_inside_name_the_compressed_file(tmp_path):
     with pytest.raises(InputError, match="not monotonic") as exc:
         atlas.io.read(path)
     assert exc.value.where == str(path)
+
+
+def test_tile_compressed_multispec_orders(tmp_path):
+    """WAT2 cards in a tile-compressed image header (WAT convention, from memory; see wat.py)."""
+    header = fits.Header()
+    header["WAT0_001"] = "system=multispec"
+    text = f'wtype=multispec spec1 = "1 1 0 5000. 0.05 {N} 0. 1. 2." spec2 = "2 2 1 3.71 1e-5 {N} 0. 1. 2."'
+    for k in range(0, len(text), 68):
+        header[f"WAT2_{k // 68 + 1:03d}"] = text[k : k + 68]
+    data = np.ones((2, N), dtype=np.float32)
+    comp = fits.CompImageHDU(data, header, compression_type="RICE_1", quantize_level=0.0)
+    path = tmp_path / "orders.fz"
+    fits.HDUList([fits.PrimaryHDU(), comp]).writeto(path)
+    assert atlas.io.detect(path) == "fits_multispec"
+    ds = atlas.io.read(path)
+    np.testing.assert_allclose(ds["wavelength"].values[0], EXPECT, rtol=1e-13)
+    np.testing.assert_allclose(
+        ds["wavelength"].values[1], 10 ** (3.71 + 1e-5 * (P - 1)), rtol=1e-12
+    )
