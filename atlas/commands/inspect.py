@@ -210,6 +210,7 @@ def describe(path, args, site, radec, time) -> dict:
     rec["_flux_unit"] = a.get("flux_unit")
     rec["_uncertainty"] = "uncertainty" in ds
     rec["_inferred_unit"] = a.get("wave_unit_inferred")
+    rec["_compression"] = a.get("compression")
     return rec
 
 
@@ -225,6 +226,10 @@ def readable(rec) -> str:
     rows = [("file", rec["file"])]
     fmt = rec["format"]
     rows.append(("format", f"{fmt} ({FORMATS[fmt].DESCRIPTION})" if fmt in FORMATS else str(fmt)))
+    if rec["_compression"]:
+        rows.append(
+            ("compression", f"{rec['_compression']} (unpacked to a temporary copy to read)")
+        )
     rows.append(("target", rec["target"] or "— (not in the file)"))
     samples = f"{rec['samples']:,}"
     if rec["orders"]:

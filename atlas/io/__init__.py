@@ -41,7 +41,7 @@ def _reader_named(name: str):
 
 
 def detect(path) -> str:
-    """Name of the reader for a file (``fits_image``, ``fits_table``, ``fits_echelle``, ``text``).
+    """Name of the reader for a file (one of ``FORMATS``: ``fits_multispec``, ``fits_echelle``, ...).
 
     Raises ``InputError`` when the file is missing, empty, a broken FITS file or
     in no format we read.

@@ -3,7 +3,7 @@
 The file convention (also in README, "Reading spectrum files"):
 
 * Lines starting with ``#``, ``;`` or ``!`` are comments, anywhere in the file;
-  blank lines too.  A comment of the form ``# key: value`` with a key from
+  blank lines too; so is ``#`` or ``!`` after a space at the end of a data row.  A comment of the form ``# key: value`` with a key from
   ``METADATA_KEYS`` sets that metadata; other comments are ignored.
 * The first other line is the header naming the columns, separated by tabs,
   commas, semicolons (whichever the header line holds) or else whitespace.  When
@@ -41,6 +41,8 @@ DESCRIPTION = "text table (CSV, TSV, whitespace): wavelength, flux, optional err
 COMMENT_CHARS = ("#", ";", "!")
 #: Column names of a file without a header line.
 HEADERLESS_NAMES = ("wavelength", "flux", "error")
+#: A comment after the numbers of a data row: ``#`` or ``!`` and the rest of the line.
+_INLINE_COMMENT = re.compile(r"\s[#!].*$")
 _FORTRAN_EXP = re.compile(r"(?<=[0-9.])[dD](?=[+-]?[0-9])")
 
 #: ``# key: value`` comment keys and what they mean.
@@ -268,7 +270,7 @@ def _numbers(path, lines, data_from, delim, ncol) -> np.ndarray:
 
     rows = []
     for i in range(data_from, len(lines)):
-        s = _fortran(lines[i].strip())
+        s = _fortran(_INLINE_COMMENT.sub("", lines[i]).strip())
         if not s or s.startswith(COMMENT_CHARS):
             continue
         n = (s.count(delim) + 1) if delim else len(s.split())

@@ -254,3 +254,16 @@ def test_a_folder_with_a_multispec_file(tmp_path, capsys):
     assert len(recs) == 1 and recs[0]["format"] == "fits_multispec" and recs[0]["orders"] == 2
     assert recs[0]["wavelength_min_A"] == pytest.approx(5000.0)
     assert recs[0]["wavelength_max_A"] == pytest.approx(5060.0 + 0.1 * 499)
+
+
+def test_compressed_file_is_named_as_such(tmp_path, capsys):
+    """gzip magic bytes 1f 8b (RFC 1952): read after unpacking, said in one row."""
+    import gzip
+
+    path = tmp_path / "s.csv.gz"
+    rows = "".join(f"{5000.0 + 0.1 * k:.1f},{1.0 + 0.001 * k:.4f}\n" for k in range(300))
+    path.write_bytes(gzip.compress(("wavelength_A,flux\n" + rows).encode()))
+    assert cli.main(["inspect", str(path)]) == 0
+    out = capsys.readouterr().out
+    assert [ln.split()[1] for ln in out.splitlines() if ln.startswith("compression")] == ["gzip"]
+    assert "5000.000 – 5029.900 Å" in out

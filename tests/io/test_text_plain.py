@@ -42,6 +42,7 @@ def test_comments_anywhere_fortran_exponents_and_trailing_blank_lines(write_text
     for k, (w, f) in enumerate(zip(WAVE_A / 1e4, FLUX, strict=True)):
         lines.append(f"  {w:.5f}D+00   {f * 10:.4f}d-01")
         if k == 2:
+            lines[-1] += "   # a comment after the numbers"
             lines += ["# a comment in the middle", "", "! and another"]
     path = write_text([*lines, "", "", "   "], name="spec.asc")
     ds = atlas.io.read(path)
