@@ -129,9 +129,9 @@ def fs_of(url: str):
     try:
         fs, path = fsspec.core.url_to_fs(os.fspath(url))
     except ImportError:
-        pkg = _BACKENDS.get(scheme(url), "an fsspec back-end")
-        raise InputError(os.fspath(url), f"{scheme(url)}:// needs the package {pkg}: "
-                         "pip install 'striae[remote]'") from None
+        pkg = _BACKENDS.get(scheme(url), "an fsspec back-end for it")
+        hint = "pip install 'striae[remote]'" if pkg in ("s3fs", "aiohttp") else f"pip install {pkg}"
+        raise InputError(os.fspath(url), f"{scheme(url)}:// needs the package {pkg} ({hint})") from None
     except ValueError as exc:
         raise InputError(os.fspath(url), f"not a usable address ({exc})") from None
     return fs, path.rstrip("/")

@@ -255,7 +255,9 @@ def write_features(atlas_url: str, name: str, features: xr.Dataset) -> None:
     """Write the ``features`` group of a star store (dimension ``feature``) and re-consolidate."""
 
     url = join(atlas_url, name)
-    features.to_zarr(url, group="features", mode="w", zarr_format=3, consolidated=False)
+    comp = _compressors()
+    enc = {k: {"compressors": comp} for k in features.variables}
+    features.to_zarr(url, group="features", mode="w", zarr_format=3, consolidated=False, encoding=enc)
     _consolidate(url)
 
 
