@@ -258,7 +258,11 @@ def build(
     unc = None if uncertainty is None else np.array(uncertainty, dtype=np.float64)
     bad = None if mask is None else np.array(mask, dtype=bool)
     check_same_length(p, wavelength=wave, flux=flx, uncertainty=unc, mask=bad)
-    check_flux(flx if bad is None else np.where(bad, np.nan, flx), p)
+    check_flux(flx, p)
+    if bad is not None and bad.all():
+        raise InputError(
+            p, "every sample is flagged bad (quality or valid-pixel flags): no usable samples"
+        )
     if wave.ndim == 1:
         if check_wavelengths(wave, p):
             wave, flx = wave[::-1].copy(), flx[::-1].copy()

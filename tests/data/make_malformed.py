@@ -110,6 +110,14 @@ def files() -> dict[str, bytes]:
     out["corrupt.fits.gz"] = gzip.compress(good, mtime=0)[:400]
     out["ambiguous_unit.txt"] = b"2100.0 1.0\n2100.5 0.9\n2101.0 1.1\n"
     out["four_columns_no_header.txt"] = b"5000.0 1.0 0.1 7\n5000.1 0.9 0.1 7\n"
+    flagged = fits.BinTableHDU.from_columns(
+        [
+            fits.Column(name="WAVE", format="D", array=np.array(w), unit="Angstrom"),
+            fits.Column(name="FLUX", format="D", array=np.array(f)),
+            fits.Column(name="QUALITY", format="J", array=np.ones(6, dtype=np.int32)),
+        ]
+    )
+    out["all_flagged_bad.fits"] = _fits_bytes([fits.PrimaryHDU(), flagged])
     return out
 
 

@@ -172,3 +172,15 @@ def test_one_row_per_order_with_array_cells(tmp_path):
     np.testing.assert_array_equal(ds["wavelength"].values, wave)
     np.testing.assert_array_equal(ds["flux"].values[:, 0], [1.0, 2.0, 3.0])
     np.testing.assert_allclose(ds["uncertainty"].values, 0.1)
+
+
+def test_all_samples_flagged_bad_is_refused(tmp_path):
+    cols = [
+        fits.Column(name="WAVE", format="D", array=np.linspace(5000.0, 5030.0, N), unit="Angstrom"),
+        fits.Column(name="FLUX", format="D", array=np.ones(N)),
+        fits.Column(name="MASK", format="J", array=np.ones(N, dtype=np.int32)),
+    ]
+    path = tmp_path / "bad.fits"
+    fits.HDUList([fits.PrimaryHDU(), fits.BinTableHDU.from_columns(cols)]).writeto(path)
+    with pytest.raises(InputError, match="every sample is flagged bad"):
+        atlas.io.read(path)

@@ -38,6 +38,7 @@ EXPECTED = {
     "corrupt.fits.gz": "corrupt gzip file",
     "ambiguous_unit.txt": "fits both Å and nm; give --wave-unit",
     "four_columns_no_header.txt": "no header line and 4 columns",
+    "all_flagged_bad.fits": "every sample is flagged bad",
 }
 
 
