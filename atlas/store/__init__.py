@@ -2,7 +2,7 @@
 
 ``ATLAS/atlas.json`` is the catalog and the commit point; ``ATLAS/stars/<name>.zarr``
 holds one star each (Zarr v3, consolidated metadata, a crc32c checksum on every chunk, a
-manifest of every file's sha256).  Writing goes to new, claimed, content-named stores;
+manifest of every file's crc32c, itself hashed with sha256 into the catalog).  Writing goes to new, claimed, content-named stores;
 the catalog is committed under a lock with a merge (:func:`commit`), so concurrent builds
 keep each other's stars and a killed build leaves the previous atlas as it was.
 

@@ -1,6 +1,6 @@
 """Checking an atlas: every file of every star store against its manifest and the catalog.
 
-A sealed store has a manifest (the sha256 of each of its files) whose own sha256 the
+A sealed store has a manifest (the crc32c of each of its files) whose own sha256 the
 catalog records as ``store_sha256``.  :func:`verify_star` reads every file once and
 names each one that is missing or whose bytes differ; a store without a manifest (built
 before checksums) is checked by decoding every chunk of every array instead, which
@@ -14,7 +14,7 @@ import json
 from dataclasses import dataclass, field
 
 from atlas.store.layout import fs_of, join
-from atlas.store.write import MANIFEST
+from atlas.store.write import DIGEST, MANIFEST, file_digest
 
 
 @dataclass
@@ -54,8 +54,11 @@ def verify_star(atlas_url: str, record: dict) -> StarCheck:
     if want and hashlib.sha256(raw).hexdigest() != want:
         check.damaged.append(MANIFEST)
     try:
-        files = json.loads(raw)["files"]
-    except (ValueError, KeyError, TypeError):
+        doc = json.loads(raw)
+        files = doc["files"]
+        if doc.get("algorithm") != DIGEST:
+            raise ValueError(doc.get("algorithm"))
+    except (ValueError, KeyError, TypeError, AttributeError):
         check.damaged.append(MANIFEST)
         return _decode_all(url, check)
     for batch in _batches(sorted(files)):
@@ -67,7 +70,7 @@ def verify_star(atlas_url: str, record: dict) -> StarCheck:
                 check.damaged.append(f"{r} (missing)")
                 continue
             check.bytes += len(b)
-            if hashlib.sha256(b).hexdigest() != files[r]:
+            if file_digest(b) != files[r]:
                 check.damaged.append(r)
     return check
 

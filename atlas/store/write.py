@@ -271,8 +271,20 @@ def _files(fs, path: str) -> list[str]:
     return sorted(out)
 
 
+#: The manifest's per-file digest: crc32c (Castagnoli), as zarr's chunk codec, through
+#: google-crc32c (hardware-accelerated: about 8x faster than sha256 here), made to find
+#: damage, not tampering; the manifest itself is hashed with sha256 for the catalog.
+DIGEST = "crc32c"
+
+
+def file_digest(data: bytes) -> str:
+    import google_crc32c
+
+    return f"{google_crc32c.value(data):08x}"
+
+
 def seal(atlas_url: str, name: str) -> str:
-    """Write the store's manifest (sha256 of every file but the writer file).
+    """Write the store's manifest (the crc32c of every file but the writer file).
 
     Returns the manifest's sha256: the store's content hash, recorded in the catalog.
     The writer file stays until the catalog naming the store is committed
@@ -281,8 +293,8 @@ def seal(atlas_url: str, name: str) -> str:
     fs, path = fs_of(join(atlas_url, name))
     rels = _files(fs, path)
     blobs = fs.cat([f"{path}/{r}" for r in rels]) if rels else {}
-    files = {r: hashlib.sha256(blobs[f"{path}/{r}"]).hexdigest() for r in rels}
-    doc = (json.dumps({"algorithm": "sha256", "files": files}, indent=0, sort_keys=True) + "\n").encode()
+    files = {r: file_digest(blobs[f"{path}/{r}"]) for r in rels}
+    doc = (json.dumps({"algorithm": DIGEST, "files": files}, indent=0, sort_keys=True) + "\n").encode()
     fs.pipe_file(f"{path}/{MANIFEST}", doc)
     return hashlib.sha256(doc).hexdigest()
 
