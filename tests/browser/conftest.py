@@ -173,4 +173,4 @@ def view_tools():
     """Helpers shared by the browser tests (the import mode keeps test modules apart)."""
     import types
 
-    return types.SimpleNamespace(open_view=open_view, wait_for=wait_for)
+    return types.SimpleNamespace(open_view=open_view, wait_for=wait_for, serve=_serve, stop=_stop)
