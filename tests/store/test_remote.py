@@ -124,3 +124,35 @@ def test_a_missing_back_end_is_one_line():
     with pytest.raises(InputError) as err:
         store.open_atlas("nosuchscheme-xyz://bucket/atlas")
     assert "nosuchscheme-xyz://bucket/atlas" == err.value.where
+
+
+def test_striae_serve_opens_an_atlas_on_a_web_host(web, tmp_path):
+    """``striae serve http://...`` starts and its page answers (the app reads over HTTP)."""
+    import socket
+    import subprocess
+    import sys
+    import time
+    import urllib.request
+
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        port = s.getsockname()[1]
+    log = open(tmp_path / "serve.log", "w")
+    proc = subprocess.Popen([sys.executable, "-m", "atlas", "serve", web, "--port", str(port)],
+                            stdout=log, stderr=subprocess.STDOUT)
+    try:
+        deadline, body = time.monotonic() + 120, ""
+        while time.monotonic() < deadline and proc.poll() is None:
+            try:
+                with urllib.request.urlopen(f"http://127.0.0.1:{port}/", timeout=60) as r:
+                    body = r.read().decode("utf-8", "replace")
+                    break
+            except OSError:
+                time.sleep(0.3)
+        assert "Bokeh" in body, (tmp_path / "serve.log").read_text()[-2000:]
+        assert "could not be made" not in body
+    finally:
+        proc.terminate()
+        proc.wait(20)
+        log.close()
+    assert "Traceback" not in (tmp_path / "serve.log").read_text()
