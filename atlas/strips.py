@@ -21,9 +21,9 @@ from dataclasses import dataclass
 import numpy as np
 
 from atlas.errors import InputError
+from atlas.physics.constants import C_KMS
 
 #: Speed of light in km/s (exact, SI definition; astropy.constants.c).
-C_KMS = 299792.458
 
 #: Samples per strip the automatic width aims at (4,000 to 8,000 accepted).
 TARGET_SAMPLES = 6000

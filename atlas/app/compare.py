@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import numpy as np
 
-C_KMS = 299_792.458  # CODATA exact speed of light
+from atlas.physics.constants import C_KMS
 
 
 def common_grid(xa, ya, xb, yb, n: int) -> dict:

@@ -13,6 +13,7 @@ import numpy as np
 import pandas as pd
 
 from atlas.app.frames import Frame
+from atlas.lines import telluric_flags
 
 COLUMNS = ("x", "species", "air_A", "vacuum_A", "strength", "telluric", "label", "ew")
 
@@ -25,8 +26,7 @@ def place(lines: pd.DataFrame | None, frame: Frame) -> pd.DataFrame | None:
     """The line list with ``x_A``: where each line appears in the displayed frame (Å)."""
     if lines is None or len(lines) == 0:
         return None
-    tell = lines["telluric"].astype(str).str.lower().isin(("true", "1")).to_numpy() if lines[
-        "telluric"].dtype != bool else lines["telluric"].to_numpy()
+    tell = telluric_flags(lines["telluric"])
     out = lines.copy()
     out["telluric"] = tell
     out["x_A"] = frame.rest_vac_to_display_A(lines["vacuum_A"].to_numpy(dtype=float), tell)

@@ -46,9 +46,9 @@ from atlas.app.state import (
     parse_query,
     parse_search,
 )
+from atlas.physics.constants import C_KMS
 from atlas.store import DamagedStar
 
-C_KMS = 299_792.458  # CODATA exact speed of light
 DEFAULT_PX = 1100  # plot width assumed before the browser reports it
 JUMP_KMS = 150.0  # half-width of the window a go-to opens, km/s
 
@@ -108,12 +108,12 @@ if (xs.length > 0) {
 let v = '';
 if (m.ref_A[0] > 0) {
   const r = lam / m.ref_A[0];
-  const kms = 299792.458 * (r * r - 1) / (r * r + 1);
+  const kms = C_KMS * (r * r - 1) / (r * r + 1);
   v = ' · v ' + (kms >= 0 ? '+' : '') + kms.toFixed(2) + ' km/s from ' + m.ref_name[0];
 }
 out.text = '<b>' + m.frame[0] + ' frame</b> · λ ' + air.toFixed(3) + ' Å air · ' +
   vac.toFixed(3) + ' Å vacuum' + v + f;
-"""
+""".replace("C_KMS", repr(C_KMS))
 
 KEYS_JS = """
 if (window.__striae_keys) { window.removeEventListener('keydown', window.__striae_keys); }

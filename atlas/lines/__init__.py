@@ -32,7 +32,7 @@ COLUMNS = (
     "source",
 )
 KINDS = ("atomic", "band_head", "telluric")
-_TRUE = {"true": True, "false": False}
+_TRUE = {"true": True, "false": False, "1": True, "0": False}
 
 
 def _number(where, col, raw: pd.Series, *, allow_empty: bool) -> np.ndarray:
@@ -47,6 +47,21 @@ def _number(where, col, raw: pd.Series, *, allow_empty: bool) -> np.ndarray:
         why = "is empty" if val == "" else f"{val!r} is not a number"
         raise InputError(where, f"column {col}, row {i + 2}: {why}")
     return out
+
+
+def telluric_flags(column: pd.Series, where="lines") -> np.ndarray:
+    """The ``telluric`` column as booleans (``true``/``false``, ``1``/``0``, any case);
+    the one place it is parsed.  InputError naming the row for anything else."""
+    if column.dtype == bool:
+        return column.to_numpy()
+    tel = column.fillna("").astype(str).str.strip().str.lower()
+    bad = ~tel.isin(list(_TRUE))
+    if bad.any():
+        i = int(np.flatnonzero(bad.to_numpy())[0])
+        raise InputError(
+            where, f"column telluric, row {i + 2}: {tel.iloc[i]!r} is not true or false"
+        )
+    return tel.map(_TRUE).astype(bool).to_numpy()
 
 
 def validate(df: pd.DataFrame, where="lines") -> pd.DataFrame:
@@ -97,14 +112,7 @@ def validate(df: pd.DataFrame, where="lines") -> pd.DataFrame:
             where, f"column kind, row {i + 2}: {kind.iloc[i]!r} is not one of {', '.join(KINDS)}"
         )
     out["kind"] = kind
-    tel = df["telluric"].fillna("").astype(str).str.strip().str.lower()
-    bad = ~tel.isin(list(_TRUE))
-    if bad.any():
-        i = int(np.flatnonzero(bad.to_numpy())[0])
-        raise InputError(
-            where, f"column telluric, row {i + 2}: {tel.iloc[i]!r} is not true or false"
-        )
-    out["telluric"] = tel.map(_TRUE).astype(bool)
+    out["telluric"] = telluric_flags(df["telluric"], where)
     out["source"] = df["source"].fillna("").astype(str)
     out = out.sort_values("vacuum_A", kind="stable").reset_index(drop=True)
     return out

@@ -46,7 +46,7 @@ def star_measurements(ds, *, site=None, radec=None, time=None, extra: dict | Non
     - ``colour_srgb``: ``#rrggbb`` true colour (CIE 1931 2° observer, sRGB; colour-science).
     - ``rv_kms`` (barycentric), ``rv_obs_kms`` (observer's frame, before the barycentric
       correction), ``rv_err_kms`` (of both): line-mask cross-correlation, or the class
-      template fit for hot or fast-rotating stars, :func:`atlas.measure.rv.rv_of_spectrum`.
+      template fit for hot or fast-rotating stars, :func:`atlas.measure.velocity.rv_of_spectrum`.
     - ``spectral_class``: chi-square against the class templates,
       :func:`atlas.measure.classify.classify`.
     - ``teff_k``: Planck colour temperature when the flux unit is calibrated, else the
@@ -85,7 +85,7 @@ def star_measurements(ds, *, site=None, radec=None, time=None, extra: dict | Non
     from atlas.measure.classify import classify, colour_temperature, is_calibrated
 
     # long spectra: velocity, class and features on 0.5 km/s bins (bounded memory)
-    from atlas.measure.rv import bin_long_spectrum, rv_of_spectrum
+    from atlas.measure.velocity import bin_long_spectrum, rv_of_spectrum
 
     mds, bnote = bin_long_spectrum(ds)
     if bnote:

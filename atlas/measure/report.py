@@ -11,6 +11,7 @@ import numpy as np
 from atlas.measure import classify as cls
 from atlas.measure import identify as ident
 from atlas.measure import rv as rvmod
+from atlas.measure import velocity
 from atlas.spectrum import finite_or_none
 
 
@@ -65,7 +66,7 @@ def measure_spectrum(ds, lines=None, *, calibrated: bool | None = None, site=Non
     medium = medium_of(ds)
     lmed = "vacuum" if medium == "vacuum" else "air"
     notes = []
-    r = rvmod.rv_of_spectrum(ds, lines, site=site, radec=radec, time=time, continuum=continuum)
+    r = velocity.rv_of_spectrum(ds, lines, site=site, radec=radec, time=time, continuum=continuum)
     if r.note:
         notes.append(r.note)
     out = {

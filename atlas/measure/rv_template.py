@@ -35,7 +35,6 @@ import math
 import numpy as np
 
 from atlas.measure.rv import (
-    C_KMS,
     FWHM_PER_SIGMA,
     ROT_FWHM_PER_VSINI,
     RVResult,
@@ -44,6 +43,7 @@ from atlas.measure.rv import (
     der_noise,
     normalise,
 )
+from atlas.physics.constants import C_KMS
 
 #: Classes tried by default: where the line mask runs short of narrow metal lines.
 HOT_CLASSES = ("O5", "O9", "B0", "B5", "A0", "A5", "F0")

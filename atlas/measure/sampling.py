@@ -4,16 +4,11 @@ from __future__ import annotations
 
 import numpy as np
 
+from atlas.physics.constants import C_KMS
+
 #: Pixels per resolution element assumed by :func:`implied_resolving_power`:
 #: Nyquist sampling, two pixels per FWHM (common practice).
 PIXELS_PER_ELEMENT = 2.0
-
-
-def _c_kms() -> float:
-    import astropy.constants as const
-    import astropy.units as u
-
-    return const.c.to_value(u.km / u.s)
 
 
 def median_sampling_kms(wave_A) -> float:
@@ -33,7 +28,7 @@ def median_sampling_kms(wave_A) -> float:
             steps.append(np.abs(np.diff(np.log(row))))
     if not steps:
         return float("nan")
-    return float(np.median(np.concatenate(steps)) * _c_kms())
+    return float(np.median(np.concatenate(steps)) * C_KMS)
 
 
 def implied_resolving_power(
@@ -47,4 +42,4 @@ def implied_resolving_power(
     s = float(sampling_kms)
     if not np.isfinite(s) or s <= 0:
         return float("nan")
-    return _c_kms() / (pixels_per_element * s)
+    return C_KMS / (pixels_per_element * s)

@@ -17,14 +17,12 @@ import math
 
 import astropy.units as u
 import numpy as np
-from astropy.constants import c as _c
 from astropy.coordinates import EarthLocation, SkyCoord
 from astropy.time import Time
 
 import atlas.physics  # noqa: F401  (offline IERS settings)
 from atlas.errors import InputError
-
-C_KMS = _c.to_value(u.km / u.s)
+from atlas.physics.constants import C_KMS
 
 
 def _time(obs_time_utc, where="time") -> Time:

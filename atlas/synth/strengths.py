@@ -42,6 +42,7 @@ import numpy as np
 import pandas as pd
 from astropy import constants as const
 
+from atlas.physics.constants import C_KMS
 from atlas.synth.atoms import (
     _K_B_CGS,
     K_B_EV,
@@ -55,7 +56,6 @@ from atlas.synth.atoms import (
 from atlas.synth.opacity import HC_EV_A, kappa_continuum, stimulated_factor
 from atlas.synth.photosphere import Layer
 
-C_KMS = const.c.to_value("km/s")
 C_CGS = const.c.cgs.value
 R_E_CM = (const.e.gauss**2 / (const.m_e * const.c**2)).cgs.value  # classical electron radius
 E_ESU = const.e.gauss.value

@@ -141,7 +141,7 @@ def bench_speed(lines, n=200_000):
 
 def bench_hot(lines, n_real=12, snr=100.0):
     """Template-fit velocities of hot, fast-rotating atlas.synth stars over noise realisations."""
-    from atlas.measure.rv import rv_of_spectrum
+    from atlas.measure.velocity import rv_of_spectrum
     from atlas.spectrum import make_spectrum
     from atlas.synth.broaden import log_grid
     from atlas.synth.model import Star, synthesize

@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from atlas.measure import rv
+from atlas.measure import rv, velocity
 from atlas.spectrum import make_spectrum
 
 DEPTH_OF_STRENGTH = {1: 0.7, 2: 0.45, 3: 0.25, 4: 0.12}
@@ -92,12 +92,12 @@ def test_dataset_wrapper_applies_barycentric_correction(synth, lines):
     ds = make_spectrum(wave, flux, sigma, medium="vacuum", obs_time_utc="2024-03-01T03:00:00",
                        ra_deg=101.3, dec_deg=-16.7, site_lat_deg=-30.0, site_lon_deg=-70.7,
                        site_height_m=2200.0)
-    res = rv.rv_of_spectrum(ds, lines)
+    res = velocity.rv_of_spectrum(ds, lines)
     assert res.barycentric_kms is not None
     expect = res.rv_obs_kms + res.barycentric_kms + res.rv_obs_kms * res.barycentric_kms / rv.C_KMS
     assert res.rv_kms == pytest.approx(expect, abs=1e-9)
     ds2 = make_spectrum(wave, flux, sigma, medium="vacuum")
-    res2 = rv.rv_of_spectrum(ds2, lines)
+    res2 = velocity.rv_of_spectrum(ds2, lines)
     assert res2.rv_kms is None and "missing time" in res2.note
 
 
@@ -131,12 +131,12 @@ def test_long_spectrum_binned_keeps_velocity_and_line_area(synth, lines):
     wave = synth.log_grid(5000.0, 5600.0, 2_300_000)
     flux, sigma, _ = synth.make_star(wave, rest, depth, rv_kms=-71.2, sigma_kms=3.0, snr=30, rng=11)
     ds = make_spectrum(wave, flux, sigma, medium="vacuum")
-    small, note = rv.bin_long_spectrum(ds, max_samples=1_000_000)
+    small, note = velocity.bin_long_spectrum(ds, max_samples=1_000_000)
     assert note and small.sizes["sample"] < 250_000
-    assert rv.bin_long_spectrum(ds)[1] is not None  # above the default 2,000,000 too
+    assert velocity.bin_long_spectrum(ds)[1] is not None  # above the default 2,000,000 too
     short = make_spectrum(wave[:1000], flux[:1000], sigma[:1000], medium="vacuum")
-    assert rv.bin_long_spectrum(short)[1] is None
-    res = rv.rv_of_spectrum(small, lines)
+    assert velocity.bin_long_spectrum(short)[1] is None
+    res = velocity.rv_of_spectrum(small, lines)
     assert abs(res.rv_obs_kms + 71.2) < 3 * res.rv_err_kms
     w_b = small["wavelength"].values
     f_b = small["flux"].values

@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from atlas.measure import rv, rv_template
+from atlas.measure import rv_template, velocity
 from atlas.spectrum import make_spectrum
 
 
@@ -34,7 +34,7 @@ def test_hot_rotating_star_velocity_within_3_sigma(lines, teff_k, vsini_kms, rv_
                      resolving_power=40000, airmass=1.2)
     flux, sigma = _noisy(syn, 100.0, int(teff_k) % 97)
     ds = make_spectrum(wave, flux, sigma, medium="vacuum", resolving_power=40000.0)
-    res = rv.rv_of_spectrum(ds, lines)
+    res = velocity.rv_of_spectrum(ds, lines)
     assert res.rv_obs_kms is not None, res.note
     assert res.rv_err_kms < 5.0
     assert abs(res.rv_obs_kms - rv_kms) < 3 * res.rv_err_kms, (res.method, res.rv_obs_kms, res.rv_err_kms)
