@@ -108,8 +108,9 @@ def axis_values(header, n: int, path) -> np.ndarray:
     return x
 
 
-def read(path, *, wave_unit=None, medium=None, **_options):
-    """Read a linear-dispersion image (one spectrum, or one per row) into a Spectrum."""
+def open_image(path):
+    """``(path, header, flux rows, uncertainty rows or None, metadata, medium)`` of the first
+    image of a file written with the linear or WAT2 dispersion cards (shared by both readers)."""
     p = validate.check_file(path)
     with fitsutil.open_fits(p) as hdul:
         index = fitsutil.first_image(hdul)
@@ -118,11 +119,16 @@ def read(path, *, wave_unit=None, medium=None, **_options):
         hdu = hdul[index]
         header = fitsutil.merged_header(hdul[0].header if index else None, hdu.header)
         flux, unc = bands.split(hdu.data, hdu.header, p)
-        unit = convention_unit(header, wave_unit, p)
-        x = axis_values(header, flux.shape[1], p)
         attrs = fitsutil.header_metadata(header)
         file_medium = fitsutil.air_or_vacuum(header) or "unknown"
-    wave = validate.to_angstrom(x, unit)
+    return p, header, flux, unc, attrs, file_medium
+
+
+def read(path, *, wave_unit=None, medium=None, **_options):
+    """Read a linear-dispersion image (one spectrum, or one per row) into a Spectrum."""
+    p, header, flux, unc, attrs, file_medium = open_image(path)
+    unit = convention_unit(header, wave_unit, p)
+    wave = validate.to_angstrom(axis_values(header, flux.shape[1], p), unit)
     if flux.shape[0] == 1:
         flux, unc, wave2 = flux[0], None if unc is None else unc[0], wave
     else:

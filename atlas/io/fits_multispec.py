@@ -18,8 +18,8 @@ from __future__ import annotations
 import numpy as np
 
 from atlas.errors import InputError
-from atlas.io import bands, fitsutil, validate, wat
-from atlas.io.fits_linear import convention_unit
+from atlas.io import fitsutil, validate, wat
+from atlas.io.fits_linear import convention_unit, open_image
 
 NAME = "fits_multispec"
 DESCRIPTION = "FITS image of orders with per-order dispersion in WAT2 header cards"
@@ -92,18 +92,9 @@ def _extend(w, ok):
 
 def read(path, *, wave_unit=None, medium=None, **_options):
     """Read every order of a WAT2 multispec image into a Spectrum (``order``, ``sample``)."""
-    p = validate.check_file(path)
-    with fitsutil.open_fits(p) as hdul:
-        index = fitsutil.first_image(hdul)
-        if index is None:
-            raise InputError(p, "not a spectrum file: no image HDU with data")
-        hdu = hdul[index]
-        header = fitsutil.merged_header(hdul[0].header if index else None, hdu.header)
-        flux, unc = bands.split(hdu.data, hdu.header, p)
-        unit = convention_unit(header, wave_unit, p)
-        raw, valid, apertures = order_wavelengths(header, flux.shape[0], flux.shape[1], p)
-        attrs = fitsutil.header_metadata(header)
-        file_medium = fitsutil.air_or_vacuum(header) or "unknown"
+    p, header, flux, unc, attrs, file_medium = open_image(path)
+    unit = convention_unit(header, wave_unit, p)
+    raw, valid, apertures = order_wavelengths(header, flux.shape[0], flux.shape[1], p)
     attrs["apertures"] = ",".join(map(str, apertures))
     wave = validate.to_angstrom(raw, unit)
     bad = ~valid
