@@ -16,12 +16,18 @@ from tests.build._data import star_files
 ROUNDS = 20
 
 
-def _build(files, atlas, delay_s, conn):
+def _build(files, atlas, delays_s, both_built, conn):
     import time
 
-    time.sleep(delay_s)
+    def meet(_path, _result):
+        # both builds have read the catalog and written their star before either commits
+        # (a real race, not two builds one after the other), then commit in random order
+        both_built.wait(60)
+        time.sleep(delays_s[1])
+
+    time.sleep(delays_s[0])
     try:
-        rep = build_atlas(files, atlas, progress=False)
+        rep = build_atlas(files, atlas, progress=False, on_star=meet)
         conn.send(("ok", sorted(rep.built)))
     except BaseException as exc:  # reported to the test, never swallowed
         conn.send(("error", repr(exc)))
@@ -38,9 +44,11 @@ def test_two_builds_racing_keep_every_star_of_both(tmp_path):
         atlas = tmp_path / f"atlas{k}"
         shutil.copytree(template, atlas)
         pipes, procs = [], []
+        both_built = ctx.Barrier(2)
         for files in ([base, a], [base, b]):
             here, there = ctx.Pipe()
-            p = ctx.Process(target=_build, args=(files, atlas, rng.uniform(0, 0.6), there))
+            delays = (rng.uniform(0, 0.6), rng.uniform(0, 0.3))
+            p = ctx.Process(target=_build, args=(files, atlas, delays, both_built, there))
             p.start()
             pipes.append(here)
             procs.append(p)
@@ -82,3 +90,15 @@ def test_lock_timeout_on_the_command_line_is_one_line(tmp_path, capsys):
     assert code == 2
     assert err[-1].startswith("striae: --lock-timeout: another build held the atlas")
     assert not (atlas / "atlas.json").exists()
+
+
+def test_a_build_after_another_lists_only_its_own_files(tmp_path):
+    """One after the other (no overlap), the later build's file list is the atlas (README, Building)."""
+    base, a, b = star_files(tmp_path, 3, n=6000)
+    atlas = tmp_path / "atlas"
+    build_atlas([base, a], atlas, progress=False)
+    build_atlas([base, b], atlas, progress=False)
+    cat = store.open_atlas(atlas)
+    assert sorted(r["source"] for r in cat.stars) == [base.name, b.name]
+    named = {r["store"].split("/")[1] for r in cat.stars}
+    assert {p.name for p in (atlas / "stars").iterdir()} == named
