@@ -5,8 +5,8 @@ that is not named as wavelength or uncertainty), an image HDU of the same shape
 named ``WAVELENGTH`` (or ``WAVE``, ``LAMBDA``) holding each pixel's wavelength,
 its unit in that HDU's ``BUNIT`` (else ``--wave-unit``, else inferred from the
 value range, see ``validate.infer_unit``), and optionally an
-uncertainty HDU named as for ``fits_image``.  The medium comes from a ``MEDIUM``
-keyword (``air``/``vacuum``) on the wavelength HDU or the primary header, else
+uncertainty HDU named as for ``fits_image``.  The medium comes from a ``MEDIUM``,
+``AIRORVAC`` or ``VACUUM`` keyword on the wavelength HDU or the primary header, else
 ``unknown``.  Orders are kept apart: dimensions ``order``, ``sample``; each order
 must be strictly monotonic and is reversed on its own when it descends.
 """
@@ -80,8 +80,8 @@ def read(path, *, wave_unit=None, medium=None, **_options):
             "BUNIT/CUNIT1 of the WAVELENGTH image",
         )
         file_medium = (
-            fitsutil.header_medium(hdul[wi].header)
-            or fitsutil.header_medium(hdul[0].header)
+            fitsutil.air_or_vacuum(hdul[wi].header)
+            or fitsutil.air_or_vacuum(hdul[0].header)
             or "unknown"
         )
         header = fitsutil.merged_header(hdul[0].header if fi else None, hdul[fi].header)

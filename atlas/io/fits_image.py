@@ -8,7 +8,7 @@ vacuum.  An image of shape (1, N) or (1, 1, N) is read as a 1-D spectrum; one of
 (rows, N) with a spectral CTYPE1 as one spectrum per row on the shared axis.  An image with no
 WCS at all but an image HDU named ``WAVELENGTH`` (``WAVE``, ``LAMBDA``) of the same
 length beside it takes its wavelengths from there (unit in its ``BUNIT``, medium
-from a ``MEDIUM`` keyword), as a one-order echelle file would.  An optional
+from a ``MEDIUM``, ``AIRORVAC`` or ``VACUUM`` keyword), as a one-order echelle file would.  An optional
 uncertainty image of the same length sits in an HDU named ``UNCERTAINTY``,
 ``ERROR``, ``ERR``, ``SIGMA``, ``STDDEV`` or ``NOISE`` (standard deviations),
 ``VARIANCE``/``VAR`` or ``IVAR``/``INVVAR`` (converted to standard deviations).
@@ -91,8 +91,8 @@ def read(path, *, wave_unit=None, medium=None, **_options):
             )
             wave_A = validate.to_angstrom(raw, unit)
             file_medium = (
-                fitsutil.header_medium(wave_hdu.header)
-                or fitsutil.header_medium(hdul[0].header)
+                fitsutil.air_or_vacuum(wave_hdu.header)
+                or fitsutil.air_or_vacuum(hdul[0].header)
                 or "unknown"
             )
         else:

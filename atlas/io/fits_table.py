@@ -7,8 +7,8 @@ a single row whose cells are whole arrays, or one row per echelle order whose ce
 are that order's arrays.  The wavelength unit comes from the
 column's ``TUNITn`` (converted with astropy.units), else from ``--wave-unit``, else
 inferred from the value range (``validate.infer_unit``); the
-medium from its ``TCTYPn`` (``AWAV`` air, ``WAVE`` vacuum), else from a ``MEDIUM``
-header keyword, else ``unknown``.  The flux unit is the flux column's ``TUNITn``.
+medium from its ``TCTYPn`` (``AWAV`` air, ``WAVE`` vacuum), else from a ``MEDIUM``,
+``AIRORVAC`` or ``VACUUM`` header keyword, else ``unknown``.  The flux unit is the flux column's ``TUNITn``.
 """
 
 from __future__ import annotations
@@ -176,4 +176,4 @@ def _medium(col, header, primary) -> str:
         return "air"
     if ctype.startswith("WAVE"):
         return "vacuum"
-    return fitsutil.header_medium(header) or fitsutil.header_medium(primary) or "unknown"
+    return fitsutil.air_or_vacuum(header) or fitsutil.air_or_vacuum(primary) or "unknown"

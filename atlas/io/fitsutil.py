@@ -16,7 +16,7 @@ Header keywords read (each optional; absent or unreadable ones stay absent):
                           ``SPEC_RES``, ``RESOLVING_POWER`` or ``R`` (common practice)
 ``BUNIT``                 flux unit
 ``MEDIUM``                ``air`` or ``vacuum`` where no WCS or column type says it (echelle)
-``AIRORVAC``, ``VACUUM``  medium in files without a spectral CTYPE1 (common practice):
+``AIRORVAC``, ``VACUUM``  medium where no WCS or column type says it (common practice):
                           ``AIRORVAC = 'air'``/``'vac'``; ``VACUUM = T``/``F``
 ========================  ===================================================
 
@@ -268,17 +268,11 @@ def header_metadata(h) -> dict:
     return attrs
 
 
-def header_medium(h) -> str | None:
-    """``air`` / ``vacuum`` from our ``MEDIUM`` keyword, or None."""
-    v = (_text(h, "MEDIUM") or "").lower()
-    return v if v in ("air", "vacuum") else None
-
-
 def air_or_vacuum(h) -> str | None:
     """``air`` / ``vacuum`` from ``MEDIUM``, ``AIRORVAC`` or ``VACUUM`` (common practice), or None."""
-    m = header_medium(h)
-    if m:
-        return m
+    v = (_text(h, "MEDIUM") or "").lower()
+    if v in ("air", "vacuum"):
+        return v
     v = (_text(h, "AIRORVAC") or "").lower()
     if v in ("air", "vac", "vacuum"):
         return "air" if v == "air" else "vacuum"
