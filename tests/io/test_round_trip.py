@@ -13,8 +13,9 @@ its wavelengths are computed independently from that convention:
 - gzip RFC 1952 and bzip2 (Python's ``bz2``), by their magic bytes;
 - binary tables with ``TUNIT``: FITS Standard 4.0, sect. 7.3.
 
-The atlas's first strip, read as the viewer reads it (``AtlasData.window``), must hold
-the file's bluest samples with their wavelengths and fluxes unchanged (vacuum files: no
+``striae inspect --json`` must give each file's samples, range and medium; the atlas's
+first strip, read as the viewer reads it (``AtlasData.window``), must hold the file's
+bluest samples with their wavelengths and fluxes unchanged (vacuum files: no
 conversion).
 """
 
@@ -22,11 +23,13 @@ from __future__ import annotations
 
 import bz2
 import gzip
+import json
 
 import numpy as np
 import pytest
 from astropy.io import fits
 
+from atlas import cli
 from atlas.app.data import AtlasData
 from atlas.build import build_atlas
 
@@ -115,7 +118,7 @@ def multispec_orders(tmp):
     hdu.header.update(AIRORVAC="vac", OBJECT="Invented Round Trip")
     path = tmp / "g.fits"
     hdu.writeto(path)
-    return path, LOG  # the bluest order is the second row
+    return path, LOG, red  # the bluest order is the second row
 
 
 def bands_orders_pixels(tmp):
@@ -185,8 +188,20 @@ LAYOUTS = [linear_ctype, no_ctype_cd, dc_flag_log, w0_wpc, gzip_linear, bzip2_li
 
 
 @pytest.mark.parametrize("layout", LAYOUTS, ids=[f.__name__ for f in LAYOUTS])
+def test_inspect_json_gives_samples_range_and_medium(tmp_path, layout, capsys):
+    path, *orders = layout(tmp_path)
+    assert cli.main(["inspect", str(path), "--json"]) == 0
+    got = json.loads(capsys.readouterr().out)
+    every = np.concatenate(orders)
+    assert got["samples"] == every.size
+    np.testing.assert_allclose([got["wavelength_min_A"], got["wavelength_max_A"]], [every.min(), every.max()],
+                               rtol=1e-12)
+    assert got["medium"] == "vacuum"
+
+
+@pytest.mark.parametrize("layout", LAYOUTS, ids=[f.__name__ for f in LAYOUTS])
 def test_every_layout_reaches_the_viewers_first_strip(tmp_path, layout):
-    path, wave = layout(tmp_path)
+    path, wave, *_ = layout(tmp_path)
     atlas = tmp_path / "atlas"
     report = build_atlas([str(path)], str(atlas), progress=False)
     assert not report.failed, report.failed
