@@ -5,17 +5,8 @@ The steps, in order:
 1. A rest-frame vacuum grid uniform in ln(lambda) a little wider than the request.
 2. The line-to-continuum opacity ratio eta(lambda), summed over all atomic lines
    (``atlas.synth.strengths``) and molecular bands (``atlas.synth.molecules``).
-3. Depth from eta by the Milne-Eddington / Eddington-Barbier result for a source
-   function linear in optical depth with line and continuum opacity in a fixed ratio:
-   r = 1 - d_max eta / (1 + eta).  Weak lines grow as eta, strong lines saturate at
-   depth ``d_max`` and then grow only through their wings: a curve of growth, and
-   the flux never goes below 1 - d_max (Mihalas 1978, sect. 10-3; Gray 2005, ch. 13).
-   ``d_max`` follows the Eddington-Barbier estimate of how far the surface is below
-   the continuum's source function in a grey atmosphere,
-   1 - B_lambda(T0) / B_lambda(Teff) with T0 = 2^(-1/4) Teff (Gray 2005, ch. 9),
-   multiplied by ``DEPTH_GAIN`` = 1.4 (our calibration for the steeper temperature
-   gradients of real photospheres) and capped at ``D_MAX`` = 0.88 (our choice): lines
-   of hot stars are shallower than those of cool stars, as observed.
+3. Depth from eta by the curve of growth of ``atlas.synth.depths`` (Milne-Eddington
+   saturation, r = 1 - d_max eta / (1 + eta), never below 1 - d_max).
 4. Rotational broadening (Gray's kernel) in the star's frame.
 5. Doppler shift by the star's radial velocity and the barycentric correction:
    the velocity seen from the observatory v_obs solves
@@ -43,11 +34,9 @@ import pandas as pd
 
 from atlas.synth import broaden, molecules, profiles, strengths, telluric
 from atlas.synth.continuum import planck_b_lambda
+from atlas.synth.depths import D_MAX, DEPTH_GAIN, depth_from_ratio, max_depth  # noqa: F401
 from atlas.synth.photosphere import layer
 from atlas.synth.strengths import C_KMS
-
-D_MAX = 0.88
-DEPTH_GAIN = 1.4
 
 
 @dataclass(frozen=True)
@@ -95,19 +84,6 @@ def opacity_ratio(wave_A: np.ndarray, star: Star, lines: pd.DataFrame) -> np.nda
     profiles.add_lines(wave_A, eta, strengths.atomic_lines(near, lay, micro_kms=star.micro_kms))
     molecules.add_bands(wave_A, eta, near, lay, micro_kms=star.micro_kms)
     return eta
-
-
-def max_depth(wave_A, teff_k: float):
-    """Deepest possible line depth d_max at ``wave_A`` (Å) for ``teff_k`` (K) (see module doc)."""
-    w = np.asarray(wave_A, dtype=np.float64)
-    ratio = planck_b_lambda(w, 2.0**-0.25 * teff_k) / planck_b_lambda(w, teff_k)
-    return np.minimum(D_MAX, DEPTH_GAIN * (1.0 - ratio))
-
-
-def depth_from_ratio(eta, d_max=D_MAX):
-    """Normalised flux 1 - d_max eta / (1 + eta) (Milne-Eddington saturation, see module doc)."""
-    eta = np.asarray(eta, dtype=np.float64)
-    return 1.0 - d_max * eta / (1.0 + eta)
 
 
 def observed_velocity_kms(rv_kms: float, barycentric_kms: float) -> float:

@@ -79,6 +79,8 @@ class LineSet:
     gamma_A: np.ndarray  # Lorentzian HWHM (Voigt) or Stark scale (hydrogen)
     kind: np.ndarray  # PROFILE_VOIGT or PROFILE_HYDROGEN
     species: np.ndarray
+    row: np.ndarray | None = None  # position of each line in the input table
+
 
     def __len__(self) -> int:
         return len(self.center_A)
@@ -123,39 +125,44 @@ def atomic_lines(lines: pd.DataFrame, lay: Layer, *, micro_kms: float = 1.5) -> 
     """
     if len(lines) == 0:
         return _empty()
-    kind = lines["kind"].astype(str).to_numpy()
-    keep = kind == "atomic"
-    rows = lines[keep]
-    parsed = [parse_species(s) for s in rows["species"]]
-    ok = np.array([p is not None for p in parsed], dtype=bool)
-    rows = rows[ok]
-    parsed = [p for p in parsed if p is not None]
-    if not parsed:
+    pos = np.flatnonzero(lines["kind"].astype(str).to_numpy() == "atomic")
+    rows = lines.iloc[pos]
+    codes, names = pd.factorize(rows["species"].astype(str))
+    parsed = [parse_species(s) for s in names]
+    known = np.array([p is not None for p in parsed] + [False], dtype=bool)
+    ok = known[codes]
+    if not ok.any():
         return _empty()
+    pos, rows, codes = pos[ok], rows[ok], codes[ok]
     wave = rows["vacuum_A"].to_numpy(dtype=np.float64)
     loggf = pd.to_numeric(rows["loggf"], errors="coerce").to_numpy(dtype=np.float64)
-    cls = pd.to_numeric(rows["strength"], errors="coerce").fillna(3).clip(1, 4).astype(int)
-    fallback = np.array([LOGGF_BY_STRENGTH[int(c)] for c in cls])
+    cls = pd.to_numeric(rows["strength"], errors="coerce").fillna(3).clip(1, 4).astype(int).to_numpy()
+    fallback = np.array([0.0] + [LOGGF_BY_STRENGTH[c] for c in range(1, 5)])[cls]
     loggf = np.where(np.isfinite(loggf), loggf, fallback)
     chi = pd.to_numeric(rows["lower_eV"], errors="coerce").fillna(0.0).to_numpy(dtype=np.float64)
 
     t, pe = lay.t_k, lay.pe_dyn
-    frac = {}
-    pop = np.empty(len(rows))
-    masses = np.empty(len(rows))
-    for i, (sym, stage) in enumerate(parsed):
+    frac: dict[str, np.ndarray] = {}
+    pop_of = np.zeros(len(names))
+    mass_of = np.ones(len(names))
+    is_h_of = np.zeros(len(names), dtype=bool)
+    for j, p in enumerate(parsed):
+        if p is None:
+            continue
+        sym, stage = p
         if sym not in frac:
             frac[sym] = stage_fractions(sym, t, pe)
-        pop[i] = abundance(sym) * frac[sym][stage] / partition_function(sym, stage)
-        masses[i] = mass_g(sym)
-    pop = pop * boltzmann_factor(t, chi)
+        pop_of[j] = abundance(sym) * frac[sym][stage] / partition_function(sym, stage)
+        mass_of[j] = mass_g(sym)
+        is_h_of[j] = sym == "H"
+    pop = pop_of[codes] * boltzmann_factor(t, chi)
     kappa = kappa_continuum(wave, lay)
     s_cm = math.pi * R_E_CM * (wave * 1e-8) ** 2 * 10.0**loggf * pop * stimulated_factor(wave, t)
     strength_A = s_cm / kappa * 1e8
 
-    sigma = doppler_sigma_A(wave, t, masses, micro_kms)
+    sigma = doppler_sigma_A(wave, t, mass_of[codes], micro_kms)
     gamma = damping_hwhm_A(wave, lay)
-    is_h = np.array([p[0] == "H" for p in parsed])
+    is_h = is_h_of[codes]
     prof = np.where(is_h, PROFILE_HYDROGEN, PROFILE_VOIGT)
     if is_h.any():
         n_l, n_u = hydrogen_levels(chi[is_h], wave[is_h])
@@ -166,13 +173,14 @@ def atomic_lines(lines: pd.DataFrame, lay: Layer, *, micro_kms: float = 1.5) -> 
         sigma_A=sigma,
         gamma_A=gamma,
         kind=prof,
-        species=rows["species"].astype(str).to_numpy(),
+        species=np.asarray(names, dtype=object)[codes],
+        row=pos,
     )
 
 
 def _empty() -> LineSet:
     z = np.zeros(0)
-    return LineSet(z, z, z, z, np.zeros(0, dtype=int), np.zeros(0, dtype=object))
+    return LineSet(z, z, z, z, np.zeros(0, dtype=int), np.zeros(0, dtype=object), np.zeros(0, dtype=np.int64))
 
 
 def thermal_energy_ev(t_k: float) -> float:
