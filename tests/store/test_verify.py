@@ -48,6 +48,17 @@ def test_an_intact_atlas_verifies_and_records_each_store_hash(built, capsys):
     assert "2 of 2 star(s) intact" in out
 
 
+def test_the_manifest_names_every_file_of_each_store(built):
+    from atlas.store.write import MANIFEST, WRITER
+
+    for rec in store.open_atlas(built).stars:
+        folder = built / rec["store"]
+        doc = json.loads((folder / MANIFEST).read_text())
+        on_disk = {p.relative_to(folder).as_posix() for p in folder.rglob("*") if p.is_file()}
+        assert set(doc["files"]) == on_disk - {MANIFEST, WRITER}
+        assert any("/c/" in f for f in doc["files"]) and "zarr.json" in doc["files"]
+
+
 @settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
 @given(pick=st.integers(0, 10**6), offset=st.integers(0, 10**9), bit=st.integers(0, 7))
 def test_a_flipped_byte_in_any_chunk_is_found_and_named(built, tmp_path_factory, pick, offset, bit):
