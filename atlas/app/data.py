@@ -46,6 +46,7 @@ class AtlasData:
         self._bounds: dict[str, tuple[np.ndarray, np.ndarray]] = {}
         self._overview: dict[tuple, dict] = {}
         self._features: dict[str, object] = {}
+        self._lines: dict[str, object] = {}
 
     # ------------------------------------------------------------------ catalog
     @property
@@ -156,6 +157,30 @@ class AtlasData:
         df = None if ds is None else ds.to_dataframe().reset_index(drop=True)
         self._features[star_id] = df
         return df
+
+    def star_lines(self, star_id: str | None):
+        """The lines to mark for a star: those predicted for it (its store's ``lines``
+        group, strength class from the predicted depth) plus the shipped list's band
+        heads and telluric lines; the whole shipped list when the star has no such
+        group (atlases built before it); None when no list is available."""
+        base = line_list()
+        if not star_id or star_id not in self.records:
+            return base
+        with self._lock:
+            if star_id in self._lines:
+                return self._lines[star_id]
+        pred = self.atlas.lines(star_id)
+        if pred is None:
+            out = base
+        else:
+            import pandas as pd
+
+            other = None if base is None else base[base["kind"].astype(str) != "atomic"]
+            out = pd.concat([pred, other], ignore_index=True) if other is not None and len(other) else pred
+            out = out.sort_values("vacuum_A", kind="stable").reset_index(drop=True)
+        with self._lock:
+            self._lines[star_id] = out
+        return out
 
 
 def _minmax_bins(wave, flux, n_bins) -> dict:

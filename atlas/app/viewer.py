@@ -1098,7 +1098,7 @@ class Viewer:
     def _placed_lines(self, fr: Frame):
         key = (self.state.star, fr)
         if key != self._placed_key:
-            self._placed = markers.place(self._lines, fr)
+            self._placed = markers.place(self.data.star_lines(self.state.star), fr)
             self._placed_key = key
         return self._placed
 

@@ -297,6 +297,34 @@ def _content_key(sha: str, options: BuildOptions, path: str) -> str:
     return hashlib.sha256(blob.encode()).hexdigest()
 
 
+#: Rest wavelengths kept around a star's observed range: +-600 km/s of radial velocity.
+_RV_MARGIN = 0.002
+
+
+def predicted_lines(measurements: dict, line_fwhm_kms, wmin_A: float, wmax_A: float):
+    """The ``lines`` group for a star (``atlas.lines.predict`` at its measured Teff and
+    the log g of its luminosity class) or None, and notes saying why not."""
+    from atlas.lines.dense import load_merged_lines
+    from atlas.lines.predict import logg_of_class, predict_depths
+    from atlas.lines.stored import to_dataset
+
+    teff = measurements.get("teff_k")
+    if teff is None or not np.isfinite(teff):
+        return None, ["no predicted lines: no Teff was measured"]
+    cls = measurements.get("spectral_class")
+    logg = logg_of_class(cls) if cls else None
+    width = line_fwhm_kms if line_fwhm_kms is not None and np.isfinite(line_fwhm_kms) else None
+    lines = load_merged_lines()
+    rest = lines["vacuum_A"].to_numpy()
+    lines = lines[(rest > wmin_A * (1 - _RV_MARGIN)) & (rest < wmax_A * (1 + _RV_MARGIN))]
+    try:
+        pred = predict_depths(lines, float(teff), logg, line_fwhm_kms=width)
+    except InputError as exc:
+        return None, [f"no predicted lines: {exc}"]
+    ds = to_dataset(pred, teff_k=float(teff), logg=logg, spectral_class=cls, line_fwhm_kms=width)
+    return ds, list(pred.attrs.get("notes", []))
+
+
 def build_star(path: str, options: BuildOptions, atlas_url: str, sha: str, in_use: frozenset) -> dict:
     """Build one star from a file into a new store of ``atlas_url``; returns its result.
 
@@ -356,6 +384,10 @@ def build_star(path: str, options: BuildOptions, atlas_url: str, sha: str, in_us
                                              time=options.time, extra=extra,
                                              rv_source=ds if is_echelle(ds) else None)
     notes += mnotes
+    lines_ds, lnotes = predicted_lines(measurements, extra.get("line_fwhm_kms"), wmin, wmax)
+    notes += lnotes
+    if lines_ds is not None:
+        store.write_lines(atlas_url, sname, lines_ds)
     if extra.get("rv_obs_kms") is not None:
         from atlas.measure.card import star_features
 

@@ -52,6 +52,8 @@ from atlas.store.write import (
     release,
     seal,
     write_features,
+    write_group,
+    write_lines,
     write_star,
     write_star_blocks,
 )
@@ -81,5 +83,5 @@ __all__ = [
     "clear_cache", "commit", "discard", "release", "fresh_store_name", "is_local", "is_read_only", "join",
     "json_number", "merge", "normalise", "open_atlas", "read_catalog", "remove_stale", "seal",
     "slugify", "store_exists", "store_name", "store_url", "unique_id", "verify_star",
-    "write_catalog", "write_features", "write_star", "write_star_blocks",
+    "write_catalog", "write_features", "write_group", "write_lines", "write_star", "write_star_blocks",
 ]

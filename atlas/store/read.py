@@ -17,6 +17,7 @@ from atlas.store.layout import CATALOG, check_id, join, normalise, store_url
 
 _open_lock = threading.Lock()
 _star_cache: dict = {}
+_lines_cache: dict = {}
 
 
 class DamagedStar(InputError):
@@ -95,18 +96,38 @@ class Atlas:
         return damage_guarded(star_id, lod.window, ds, strip, lo_A, hi_A, max_points,
                              flux=flux, url=self.store_url(star_id))
 
-    def features(self, star_id: str):
-        """The star's measured features (group ``features``) as a Dataset, or None when absent."""
+    def group(self, star_id: str, name: str):
+        """Group ``name`` of a star's store loaded as a Dataset, or None when absent."""
         url = self.store_url(star_id)
         ds = self.star(star_id)  # opens (and checks) the root first
         del ds
         try:
-            feats = xr.open_zarr(url, group="features", consolidated=True)
+            grp = xr.open_zarr(url, group=name, consolidated=True)
         except (KeyError, FileNotFoundError):
             return None
         except Exception as exc:
             raise DamagedStar(star_id, str(exc)) from exc
-        return damage_guarded(star_id, feats.load)
+        return damage_guarded(star_id, grp.load)
+
+    def features(self, star_id: str):
+        """The star's measured features (group ``features``) as a Dataset, or None when absent."""
+        return self.group(star_id, "features")
+
+    def lines(self, star_id: str):
+        """The lines predicted for the star (group ``lines``) as a DataFrame sorted by
+        vacuum Å (``atlas.lines.stored.from_dataset``), or None when the store has none;
+        cached per process (a store's path changes whenever its content does)."""
+        from atlas.lines.stored import from_dataset
+
+        url = self.store_url(star_id)
+        with _open_lock:
+            if url in _lines_cache:
+                return _lines_cache[url]
+        grp = self.group(star_id, "lines")
+        df = None if grp is None else from_dataset(grp)
+        with _open_lock:
+            _lines_cache[url] = df
+        return df
 
 
 def open_atlas(path) -> Atlas:
@@ -122,3 +143,4 @@ def clear_cache() -> None:
     """Forget opened stores (tests, and after a repair)."""
     with _open_lock:
         _star_cache.clear()
+        _lines_cache.clear()

@@ -251,14 +251,25 @@ def _write_items(items) -> None:
     sync(write_all())
 
 
-def write_features(atlas_url: str, name: str, features: xr.Dataset) -> None:
-    """Write the ``features`` group of a star store (dimension ``feature``) and re-consolidate."""
-
+def write_group(atlas_url: str, name: str, group: str, ds: xr.Dataset) -> None:
+    """Write the 1-D table ``ds`` as group ``group`` of a star store (Blosc + crc32c on every
+    array) and re-consolidate."""
     url = join(atlas_url, name)
     comp = _compressors()
-    enc = {k: {"compressors": comp} for k in features.variables}
-    features.to_zarr(url, group="features", mode="w", zarr_format=3, consolidated=False, encoding=enc)
+    enc = {k: {"compressors": comp} for k in ds.variables}
+    ds.to_zarr(url, group=group, mode="w", zarr_format=3, consolidated=False, encoding=enc)
     _consolidate(url)
+
+
+def write_features(atlas_url: str, name: str, features: xr.Dataset) -> None:
+    """Write the ``features`` group of a star store (dimension ``feature``)."""
+    write_group(atlas_url, name, "features", features)
+
+
+def write_lines(atlas_url: str, name: str, lines: xr.Dataset) -> None:
+    """Write the ``lines`` group of a star store: its predicted lines (dimension ``line``,
+    ``atlas.lines.stored.to_dataset``)."""
+    write_group(atlas_url, name, "lines", lines)
 
 
 def _files(fs, path: str) -> list[str]:

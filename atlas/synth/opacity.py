@@ -26,10 +26,10 @@ import numpy as np
 from astropy import constants as const
 
 from atlas.synth.atoms import (
-    ELEMENTS,
     K_B_EV,
     hminus_per_hi,
     hydrogen_neutral_fraction,
+    ionisation_energies,
 )
 from atlas.synth.photosphere import Layer
 
@@ -37,7 +37,7 @@ SIGMA_T_CM2 = const.sigma_T.cgs.value
 HC_EV_A = (const.h * const.c).to_value("eV Angstrom")  # 12398.4 eV Å
 HMINUS_SIGMA_CM2 = 4.0e-17  # from memory (Wishart 1979, near its peak)
 HMINUS_EDGE_A = 16419.0  # HC / 0.754 eV
-CHI_H_EV = ELEMENTS["H"][2][0]
+CHI_H_EV = ionisation_energies("H")[0]
 
 
 def stimulated_factor(wave_A, t_k):

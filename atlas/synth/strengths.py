@@ -152,7 +152,7 @@ def atomic_lines(lines: pd.DataFrame, lay: Layer, *, micro_kms: float = 1.5) -> 
         sym, stage = p
         if sym not in frac:
             frac[sym] = stage_fractions(sym, t, pe)
-        pop_of[j] = abundance(sym) * frac[sym][stage] / partition_function(sym, stage)
+        pop_of[j] = abundance(sym) * frac[sym][stage] / partition_function(sym, stage, t)
         mass_of[j] = mass_g(sym)
         is_h_of[j] = sym == "H"
     pop = pop_of[codes] * boltzmann_factor(t, chi)
