@@ -14,6 +14,7 @@ import numpy as np
 import xarray as xr
 
 from atlas import __version__, store
+from atlas.blaze import fit_orders
 from atlas.continuum import ContinuumSettings, fit_continuum
 from atlas.errors import InputError
 from atlas.lod import FACTOR, build_levels
@@ -114,6 +115,17 @@ def _to_vacuum(wave, medium: str, notes: list[str]):
     return np.asarray(air_to_vacuum_A(wave), dtype=np.float64)
 
 
+def merged_orders(parts, conts) -> dict:
+    """``atlas.merge_orders.merge_orders`` of sorted (wave, flux, mask, uncertainty) parts and their continua."""
+    from atlas.merge_orders import merge_orders
+
+    m = merge_orders([{"wavelength": p[0], "flux": p[1], "mask": p[2], "uncertainty": p[3], "continuum": cc}
+                      for p, cc in zip(parts, conts, strict=True)])
+    m.pop("order")
+    m["continuum"] = m["continuum"].astype(np.float32)
+    return m
+
+
 def prepare(ds: xr.Dataset, options: BuildOptions):
     """Flatten a Spectrum to sorted 1-D vacuum samples with its continuum and strip plan.
 
@@ -139,24 +151,25 @@ def prepare(ds: xr.Dataset, options: BuildOptions):
         if not parts:
             raise InputError(ds.attrs.get("source_path", "spectrum"), "no sample has a finite wavelength")
         parts.sort(key=lambda p: p[0][0])
-        lengths = np.array([p[0].size for p in parts])
-        seq = {
-            "wavelength": np.concatenate([p[0] for p in parts]),
-            "flux": np.concatenate([p[1] for p in parts]),
-            "mask": np.concatenate([p[2] for p in parts]),
-            "uncertainty": np.concatenate([p[3] for p in parts]) if unc_present else None,
-        }
-        stops = np.cumsum(lengths)
-        segments = list(zip((stops - lengths).tolist(), stops.tolist(), strict=True))
-        # Each order keeps its own blaze: its continuum is fitted on its own.
-        seq["continuum"] = fit_continuum(seq["wavelength"], seq["flux"], seq["mask"], c, segments).astype(np.float32)
+        # The orders' continua are fitted together (atlas.blaze): one star continuum, a
+        # blaze shared between neighbouring orders, overlaps that agree.
+        conts = fit_orders([(p[0], p[1], p[2]) for p in parts], c)
         if not options.merge_orders and options.equal_A is None and options.strip_kms is None:
+            lengths = np.array([p[0].size for p in parts])
+            seq = {
+                "wavelength": np.concatenate([p[0] for p in parts]),
+                "flux": np.concatenate([p[1] for p in parts]),
+                "mask": np.concatenate([p[2] for p in parts]),
+                "uncertainty": np.concatenate([p[3] for p in parts]) if unc_present else None,
+                "continuum": np.concatenate(conts).astype(np.float32),
+                # the measurements use the orders merged into one spectrum (popped by build_star)
+                "measure": merged_orders(parts, conts),
+            }
             plan = plan_orders(lengths, [p[0][0] for p in parts], [p[0][-1] for p in parts])
             if dropped:
                 notes.append(f"{dropped} samples without a finite wavelength left out")
             return seq, plan, notes
-        order = np.argsort(seq["wavelength"], kind="stable")
-        seq = {k: (None if v is None else v[order]) for k, v in seq.items()}
+        seq = merged_orders(parts, conts)
         if not options.merge_orders:
             notes.append("echelle orders merged because a strip width was given")
     else:
@@ -360,7 +373,10 @@ def build_star(path: str, options: BuildOptions, atlas_url: str, sha: str, in_us
     while not store.claim(atlas_url, sname):  # another build took that path just now
         sname = store.fresh_store_name(slug, os.urandom(16).hex(), atlas_url, set(in_use))
     # Store first, then measure: the two largest memory peaks never overlap.
+    measure = seq.pop("measure", None)
     write_star_arrays(atlas_url, sname, seq, plan, attrs)
+    if measure is not None:  # echelle orders, one strip each: measured merged
+        seq = measure
     # echelle input: the orders' own continua (their blaze) normalise the merged spectrum
     # for the class and the features; other spectra are normalised inside the measurements
     cont = seq.pop("continuum")
