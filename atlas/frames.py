@@ -25,7 +25,7 @@ import numpy as np
 
 from atlas.physics import airvac, doppler
 from atlas.spectrum import finite_or_none
-from atlas.view import FRAMES  # noqa: F401  (re-exported)
+from atlas.viewspec import FRAMES  # noqa: F401  (re-exported)
 
 
 def scale(unit: str) -> float:

@@ -47,25 +47,26 @@ from atlas.app.state import (
     parse_search,
 )
 from atlas.physics.constants import C_KMS
+from atlas.presentation import PALETTE, record_rows, y_limits
 from atlas.store import DamagedStar
 
 DEFAULT_PX = 1100  # plot width assumed before the browser reports it
 JUMP_KMS = 150.0  # half-width of the window a go-to opens, km/s
 
 # Our own palette: ink on warm paper, one accent for the focused strip.
-INK = "#20283a"
-PAPER = "#fbf8f1"
-RULE = "#e6dfd0"
-SPECTRUM = "#1f4e79"
-STELLAR = "#b0562c"
-TELLURIC = "#6b8f71"
-FOCUS = "#d9a400"
-FEATURE_ID = "#5b3f8c"
-FEATURE_UN = "#c0304a"
-OVERVIEW = "#7a869a"
-SECOND = "#8a4f9e"  # the comparison star
-GROW = "#2f7d4f"  # a line deeper in the comparison star
-FADE = "#c2562e"  # a line shallower in the comparison star
+INK = PALETTE["ink"]
+PAPER = PALETTE["paper"]
+RULE = PALETTE["rule"]
+SPECTRUM = PALETTE["spectrum"]
+STELLAR = PALETTE["stellar"]
+TELLURIC = PALETTE["telluric"]
+FOCUS = PALETTE["mark"]
+FEATURE_ID = PALETTE["feature_known"]
+FEATURE_UN = PALETTE["feature_unexplained"]
+OVERVIEW = PALETTE["overview"]
+SECOND = PALETTE["second"]
+GROW = PALETTE["grow"]
+FADE = PALETTE["fade"]
 
 CSS = f"""
 :host {{ --striae-ink: {INK}; }}
@@ -174,15 +175,6 @@ if (navigator.clipboard && window.isSecureContext) {
 """
 
 
-def _fmt(v, fmt="{:.1f}", unit=""):
-    if v is None or (isinstance(v, float) and not math.isfinite(v)):
-        return '<span class="na">not measured</span>'
-    try:
-        return html.escape(fmt.format(v) + unit)
-    except (TypeError, ValueError):
-        return html.escape(str(v))
-
-
 def swatch_css(colour) -> str | None:
     """A CSS colour from a record's ``colour_srgb`` ([r, g, b] in 0..1 or 0..255, or #hex)."""
     if isinstance(colour, str) and len(colour) in (4, 7) and colour.startswith("#"):
@@ -206,24 +198,15 @@ def star_card_html(rec: dict, frame_note: str = "") -> str:
     colour = swatch_css(rec.get("colour_srgb"))
     sw = (f'<span class="striae-swatch" style="background:{colour}"></span> {colour}'
           if colour else '<span class="na">not measured</span>')
-    rv = rec.get("rv_kms")
-    rv_txt = _fmt(rv, "{:+.2f}", " km/s")
-    if rv is not None and rec.get("rv_err_kms") is not None:
-        rv_txt = html.escape(f"{rv:+.2f} ± {rec['rv_err_kms']:.2f} km/s")
-    rows = [
-        ("star", html.escape(str(rec.get("name") or rec.get("id")))),
-        ("class", _fmt(rec.get("spectral_class"), "{}")),
-        ("Teff", _fmt(rec.get("teff_k"), "{:.0f}", " K")),
-        ("RV (barycentric)", rv_txt),
-        ("barycentric corr.", _fmt(rec.get("barycentric_kms"), "{:+.3f}", " km/s")),
-        ("S/N", _fmt(rec.get("snr"), "{:.0f}")),
-        ("resolving power", _fmt(rec.get("resolving_power"), "{:,.0f}")),
-        ("true colour", sw),
-        ("samples", _fmt(rec.get("samples"), "{:,}")),
-        ("range (vacuum)", _fmt(rec.get("wavelength_min_A"), "{:.1f}") + " – "
-         + _fmt(rec.get("wavelength_max_A"), "{:.1f}", " Å")),
-        ("source file", html.escape(str(rec.get("source") or "")) or '<span class="na">unknown</span>'),
-    ]
+    na = '<span class="na">not measured</span>'
+    rows = []
+    for label, text in record_rows(rec):
+        if label == "range (vacuum)" and text is None:
+            text = "not measured"
+        rows.append((label, html.escape(text) if text is not None else
+                     ('<span class="na">unknown</span>' if label == "source file" else na)))
+        if label == "resolving power":
+            rows.append(("true colour", sw))
     body = "".join(f"<tr><td>{k}</td><td>{v}</td></tr>" for k, v in rows)
     note = f'<p style="color:#8a5a00;font-size:12px">{html.escape(frame_note)}</p>' if frame_note else ""
     return f'<div class="striae-card"><table>{body}</table>{note}</div>'
@@ -729,7 +712,7 @@ class Viewer:
     def export_view(self) -> dict:
         """The current view as export arguments (``atlas.export``): the zoom window, or
         the strips of this page; per_page clamped to what one printed page holds."""
-        from atlas import export_pdf as pdfmod
+        from atlas.export import pdf as pdfmod
 
         st = self.state
         view = {k: getattr(st, k) for k in ("star", "frame", "medium", "unit", "flux", "lines",
@@ -1116,16 +1099,7 @@ class Viewer:
         if r is None:
             lo_b, hi_b = self.data.strip_bounds(self.state.star)
             w = self.data.window(self.state.star, strip, lo_b[strip], hi_b[strip], 1024, flux=flux)
-            y = np.asarray(w["flux"], dtype=np.float64)
-            y = y[np.isfinite(y)]
-            if len(y) == 0:
-                r = (0.0, 1.2)
-            else:
-                a, b = float(np.min(y)), float(np.max(y))
-                if flux == "norm":
-                    a, b = min(a, 0.0) if a < 0.2 else a, max(b, 1.08)
-                pad = 0.06 * (b - a or 1.0)
-                r = (a - pad, b + pad)
+            r = y_limits(w["flux"], flux == "norm", room_above=0.06)
             self._yrange[key] = r
         return r
 

@@ -13,7 +13,7 @@ def viewer(make_viewer):
 
 
 def test_pdf_of_the_page_clamps_strips_per_page(viewer):
-    from atlas.export_pdf import max_per_page
+    from atlas.export.pdf import max_per_page
 
     v = viewer.export_view()
     assert v["per_page"] == min(12, max_per_page("a4"))

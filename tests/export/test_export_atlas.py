@@ -15,7 +15,7 @@ from matplotlib.backends.backend_agg import FigureCanvasAgg
 
 import atlas.export as ex
 from atlas.errors import InputError
-from atlas.export_pdf import PageSpec, draw_page
+from atlas.export.pdf import PageSpec, draw_page
 from atlas.lines import load_lines
 
 ALPHA, NOSITE = "test-star-alpha", "test-star-nosite"
@@ -261,8 +261,10 @@ def test_failure_while_drawing_leaves_the_old_file_untouched(small_atlas, tmp_pa
             raise RuntimeError("disk trouble")
         return real(*args, **kw)
 
-    real = ex._window
-    monkeypatch.setattr(ex, "_window", broken)
+    from atlas.export import gather
+
+    real = gather._window
+    monkeypatch.setattr(gather, "_window", broken)
     with pytest.raises(RuntimeError):
         ex.export_pdf(small_atlas, ALPHA, out, per_page=2)
     assert out.read_bytes() == b"previous contents"

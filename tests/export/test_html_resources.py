@@ -18,8 +18,8 @@ import re, sys
 if sys.argv[1] == "panel":
     import panel  # noqa: F401  (registers Panel's models, as the app does)
 import numpy as np
-from atlas.export_html import render_html
-from atlas.export_parts import PageText, StripData
+from atlas.export.html import render_html
+from atlas.export.parts import PageText, StripData
 x = np.linspace(6540.0, 6600.0, 500)
 strip = StripData(index=1, x=x, y=np.ones_like(x), xlim=(6540.0, 6600.0))
 text = PageText(title="t", header=(), x_label="wavelength (Å, air, rest frame)", y_label="flux",

@@ -16,9 +16,9 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from matplotlib.backends.backend_agg import FigureCanvasAgg
 
-from atlas.export_html import render_html
-from atlas.export_parts import LineMarker, MarkBand, PageText, StripData, thin_labels
-from atlas.export_pdf import PageSpec, draw_page, max_per_page, write_pdf
+from atlas.export.html import render_html
+from atlas.export.parts import LineMarker, MarkBand, PageText, StripData, thin_labels
+from atlas.export.pdf import PageSpec, draw_page, max_per_page, write_pdf
 
 NOTE = "<script>alert(1)</script> costs $5 ^_^"
 

@@ -63,7 +63,7 @@ def test_bad_view_values_name_the_parameter(kw, where):
 
 
 def test_note_control_characters_become_spaces():
-    v = make_view(star="a", marks=[[1.0, 2.0, "two\nlines\tand\x00nul"]])
+    v = make_view(star="a", marks=[[6500.0, 6501.0, "two\nlines\tand\x00nul"]])
     assert v.marks[0][2] == "two lines and nul"
 
 

@@ -30,7 +30,7 @@ from bokeh.models import (
 from bokeh.plotting import figure
 from bokeh.resources import Resources
 
-from atlas.export_parts import (
+from atlas.export.parts import (
     LineMarker,
     MarkBand,
     PageText,
@@ -38,14 +38,15 @@ from atlas.export_parts import (
     markers_in,
     thin_labels,
 )
+from atlas.presentation import PALETTE, y_limits
 
 #: Plot width assumed when thinning labels, CSS pixels.
 PLOT_WIDTH_PX = 1100
 STRIP_HEIGHT_PX = 230
 LABEL_PX = 9  # label font size; labels are turned 90 degrees
-_STELLAR = "#1f4e8c"
-_TELLURIC = "#7a7a7a"
-_MARK = "#e8b33c"
+_STELLAR = PALETTE["stellar"]
+_TELLURIC = PALETTE["telluric"]
+_MARK = PALETTE["mark"]
 
 
 class BokehOnlyResources(Resources):
@@ -80,16 +81,8 @@ class BokehOnlyResources(Resources):
 
 
 def _y_range(strip: StripData, normalized: bool) -> tuple[float, float]:
-    y = np.asarray(strip.y, dtype=np.float64)
-    y = y[np.isfinite(y)]
-    if y.size == 0:
-        return (0.0, 1.3) if normalized else (0.0, 1.0)
-    lo, hi = (float(v) for v in np.percentile(y, [0.1, 99.9]))
-    if normalized:
-        lo, hi = min(lo, 0.0), min(max(hi, 1.05), 2.0)
-    span = hi - lo if hi > lo else max(abs(hi), 1.0) * 0.1
     # Room above the spectrum for the line ticks and labels.
-    return lo - 0.04 * span, hi + 0.75 * span
+    return y_limits(strip.y, normalized, room_above=0.75)
 
 
 def _header_html(text: PageText, marks: Sequence[MarkBand], unit_word: str) -> str:
@@ -133,7 +126,7 @@ def strip_figure(strip: StripData, text: PageText, markers: Sequence[LineMarker]
     x, y = strip.x, strip.y
     src = ColumnDataSource({"x": np.asarray(x, dtype=np.float32),
                             "y": np.asarray(y, dtype=np.float32)})
-    line = p.line("x", "y", source=src, line_width=1, color="black")
+    line = p.line("x", "y", source=src, line_width=1, color=PALETTE["spectrum"])
     p.add_tools(HoverTool(renderers=[line], mode="vline", tooltips=[("λ", "@x{0.000}"),
                                                                     ("flux", "@y{0.000}")]))
 

@@ -19,7 +19,7 @@ from matplotlib.backends.backend_pdf import PdfPages
 from matplotlib.figure import Figure
 from matplotlib.transforms import blended_transform_factory
 
-from atlas.export_parts import (
+from atlas.export.parts import (
     LineMarker,
     MarkBand,
     PageText,
@@ -27,6 +27,7 @@ from atlas.export_parts import (
     markers_in,
     thin_labels,
 )
+from atlas.presentation import PALETTE, y_limits
 
 #: Paper sizes in inches (portrait): ISO 216 A4 and US Letter (common practice).
 PAPERS = {"a4": (8.27, 11.69), "letter": (8.5, 11.0)}
@@ -43,9 +44,9 @@ _NOTE_PT = 5.5
 #: each about as wide as the drawn line (0.45 pt).
 POINTS_PER_INCH = 300
 
-_STELLAR_COLOUR = "#1f4e8c"
-_TELLURIC_COLOUR = "#7a7a7a"
-_MARK_COLOUR = "#e8b33c"
+_STELLAR_COLOUR = PALETTE["stellar"]
+_TELLURIC_COLOUR = PALETTE["telluric"]
+_MARK_COLOUR = PALETTE["mark"]
 
 
 @dataclass(frozen=True)
@@ -69,21 +70,8 @@ def max_per_page(paper: str) -> int:
 
 
 def _y_limits(strips: Sequence[StripData], normalized: bool) -> list[tuple[float, float]]:
-    """Per-strip y limits: robust to single wild samples (0.1 and 99.9 percentiles)."""
-    out = []
-    for s in strips:
-        y = np.asarray(s.y, dtype=np.float64)
-        y = y[np.isfinite(y)]
-        if y.size == 0:
-            out.append((0.0, 1.2) if normalized else (0.0, 1.0))
-            continue
-        lo, hi = np.percentile(y, [0.1, 99.9])
-        if normalized:
-            lo, hi = min(lo, 0.0), max(hi, 1.05)
-            hi = min(hi, 2.0)
-        pad = 0.04 * (hi - lo) if hi > lo else max(abs(hi), 1.0) * 0.05
-        out.append((float(lo - pad), float(hi + pad)))
-    return out
+    """Per-strip y limits (:func:`atlas.presentation.y_limits`)."""
+    return [y_limits(s.y, normalized) for s in strips]
 
 
 def draw_page(
@@ -110,11 +98,11 @@ def draw_page(
     for i, line in enumerate(text.header):
         fig.text(_LEFT / width, (top - 0.17 * (i + 1)) / height, line, fontsize=6.5,
                  va="baseline", **kw)
-    fig.text(_LEFT / width, 0.25 / height, text.footer, fontsize=6, color="#444444",
+    fig.text(_LEFT / width, 0.25 / height, text.footer, fontsize=6, color=PALETTE["muted"],
              va="baseline", **kw)
     for i, note in enumerate(text.notes):
         fig.text(_LEFT / width, (0.25 + 0.12 * (i + 1)) / height, note, fontsize=6,
-                 color="#444444", va="baseline", **kw)
+                 color=PALETTE["muted"], va="baseline", **kw)
     fig.text(0.2 / width, 0.5, text.y_label, rotation=90, fontsize=8, ha="center",
              va="center", **kw)
 
@@ -129,7 +117,7 @@ def draw_page(
         y0 = height - _TOP - k * slot - _LABEL_BAND - axes_h
         ax = fig.add_axes((_LEFT / width, y0 / height, axes_w / width, axes_h / height))
         x, y = strip.x, strip.y
-        ax.plot(x, y, lw=0.45, color="black", solid_joinstyle="round")
+        ax.plot(x, y, lw=0.45, color=PALETTE["spectrum"], solid_joinstyle="round")
         ax.set_xlim(*strip.xlim)
         ax.set_ylim(*ylims[k])
         ax.tick_params(labelsize=6, length=2.5, width=0.5, pad=1.5)
