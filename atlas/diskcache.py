@@ -41,7 +41,7 @@ def code_fingerprint() -> str:
     h = hashlib.sha256(f"{__version__} numpy {np.__version__} scipy {scipy.__version__}".encode())
     for sub in _SOURCES:
         for p in sorted((root / sub).rglob("*")):
-            if p.is_file() and p.suffix in (".py", ".csv", ".json", ".txt"):
+            if p.is_file() and p.suffix in (".py", ".csv", ".json", ".txt", ".gz"):
                 h.update(str(p.relative_to(root)).encode())
                 h.update(p.read_bytes())
     return h.hexdigest()

@@ -23,6 +23,9 @@ DENSE_PATH = Path(__file__).with_name("data") / "ges_lines.csv.gz"
 EXTRA_COLUMNS = ("gf_source", "g_upper", "lower_level", "upper_level")
 #: Air wavelength range covered by the Gaia-ESO list (Heiter et al. 2021), Å.
 GES_AIR_RANGE_A = (4200.0, 9200.0)
+#: A curated line counts as present in the dense list when a line of its species lies
+#: this close (vacuum Å); the curated wavelengths agree with GES to 0.02 Å.
+SAME_LINE_A = 0.05
 
 
 @functools.lru_cache(maxsize=2)
@@ -55,16 +58,31 @@ def load_dense_lines(path=None) -> pd.DataFrame:
     return _read(p, Path(p).stat().st_mtime).copy()
 
 
+def _absent(cur: pd.DataFrame, dense: pd.DataFrame) -> np.ndarray:
+    """True for each row of ``cur`` with no line of its species in ``dense`` within SAME_LINE_A."""
+    out = np.ones(len(cur), dtype=bool)
+    waves = {sp: g["vacuum_A"].to_numpy() for sp, g in dense.groupby("species", sort=False)}
+    for i, (sp, w) in enumerate(zip(cur["species"], cur["vacuum_A"], strict=True)):
+        ref = waves.get(sp)
+        if ref is not None and ref.size:
+            j = np.searchsorted(ref, w)
+            near = ref[max(j - 1, 0):j + 1]
+            out[i] = not (np.abs(near - w) < SAME_LINE_A).any()
+    return out
+
+
 def load_merged_lines() -> pd.DataFrame:
     """Dense GES atoms plus, from ``load_lines()``: H I / He II (all), other atomic
-    lines outside 4200-9200 Å (air), band heads and telluric bands; sorted by vacuum Å.
+    lines outside 4200-9200 Å (air), the curated atomic lines inside it that the GES
+    list lacks (He I, C II, Si III, ... of hot stars: no GES line of the species within
+    ``SAME_LINE_A``), band heads and telluric bands; sorted by vacuum Å.
     Rows from ``load_lines()`` have empty ``gf_source`` and level columns, NaN ``g_upper``."""
     dense = load_dense_lines()
     cur = load_lines()
     air = cur["air_A"].to_numpy()
     hydrogenic = cur["species"].isin(["H I", "He II"]).to_numpy()
     outside = (air < GES_AIR_RANGE_A[0]) | (air > GES_AIR_RANGE_A[1])
-    keep = (cur["kind"] != "atomic").to_numpy() | hydrogenic | outside
+    keep = (cur["kind"] != "atomic").to_numpy() | hydrogenic | outside | _absent(cur, dense)
     extra = cur.loc[keep].copy()
     for col in EXTRA_COLUMNS:
         extra[col] = np.nan if col == "g_upper" else ""

@@ -44,6 +44,9 @@ D_MAX = 0.88
 DEPTH_GAIN = 1.4
 #: FWHM of a Gaussian over its standard deviation, 2 sqrt(2 ln 2).
 FWHM_PER_SIGMA = 2.0 * math.sqrt(2.0 * math.log(2.0))
+#: Lines whose unbroadened central depth is below this are left out of a synthesis
+#: (well below 1 %: they change the spectrum by less than its noise; our choice).
+SYNTH_DEPTH_FLOOR = 0.001
 #: Points of the half-profile grid used for each line's equivalent width.
 _N_GRID = 48
 
@@ -118,3 +121,11 @@ def line_depths(ls: LineSet, teff_k: float, fwhm_kms: float, *, floor: float = 0
         s_b = ls.center_A[idx] * fwhm_kms / C_KMS / FWHM_PER_SIGMA
         depth[idx] = np.minimum(d0[idx], ew[idx] / (root * np.hypot(s_e, s_b)))
     return depth, ew
+
+
+def strong_enough(ls: LineSet, teff_k: float, floor: float = SYNTH_DEPTH_FLOOR) -> LineSet:
+    """The lines of ``ls`` whose unbroadened central depth exceeds ``floor`` (a synthesis
+    from 100,000 listed lines computes only those that show)."""
+    d_max = max_depth(ls.center_A, teff_k)
+    eta0 = central_ratio(ls)
+    return ls.take(d_max * eta0 / (1.0 + eta0) > floor)

@@ -3,8 +3,10 @@
 The steps, in order:
 
 1. A rest-frame vacuum grid uniform in ln(lambda) a little wider than the request.
-2. The line-to-continuum opacity ratio eta(lambda), summed over all atomic lines
-   (``atlas.synth.strengths``) and molecular bands (``atlas.synth.molecules``).
+2. The line-to-continuum opacity ratio eta(lambda), summed over the atomic lines
+   (``atlas.synth.strengths``; by default the dense list, ``default_lines``) whose
+   unbroadened central depth exceeds ``atlas.synth.depths.SYNTH_DEPTH_FLOOR`` (0.1 %),
+   and the molecular bands (``atlas.synth.molecules``).
 3. Depth from eta by the curve of growth of ``atlas.synth.depths`` (Milne-Eddington
    saturation, r = 1 - d_max eta / (1 + eta), never below 1 - d_max).
 4. Rotational broadening (Gray's kernel) in the star's frame.
@@ -32,7 +34,7 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from atlas.synth import broaden, molecules, profiles, strengths, telluric
+from atlas.synth import broaden, depths, molecules, profiles, strengths, telluric
 from atlas.synth.continuum import planck_b_lambda
 from atlas.synth.depths import D_MAX, DEPTH_GAIN, depth_from_ratio, max_depth  # noqa: F401
 from atlas.synth.photosphere import layer
@@ -69,10 +71,11 @@ class Synthetic:
 
 
 def default_lines() -> pd.DataFrame:
-    """The shipped line list (``atlas.lines.load_lines``)."""
-    from atlas.lines import load_lines
+    """The shipped dense line list (``atlas.lines.dense.load_merged_lines``: Gaia-ESO
+    atoms plus the curated hydrogen, hot-star, band-head and telluric rows)."""
+    from atlas.lines.dense import load_merged_lines
 
-    return load_lines()
+    return load_merged_lines()
 
 
 def opacity_ratio(wave_A: np.ndarray, star: Star, lines: pd.DataFrame) -> np.ndarray:
@@ -81,7 +84,8 @@ def opacity_ratio(wave_A: np.ndarray, star: Star, lines: pd.DataFrame) -> np.nda
     eta = np.zeros_like(wave_A, dtype=np.float64)
     lo, hi = wave_A[0] - 400.0, wave_A[-1] + 400.0
     near = lines[(lines["vacuum_A"] > lo) & (lines["vacuum_A"] < hi)]
-    profiles.add_lines(wave_A, eta, strengths.atomic_lines(near, lay, micro_kms=star.micro_kms))
+    atomic = strengths.atomic_lines(near, lay, micro_kms=star.micro_kms)
+    profiles.add_lines(wave_A, eta, depths.strong_enough(atomic, star.teff_k))
     molecules.add_bands(wave_A, eta, near, lay, micro_kms=star.micro_kms)
     return eta
 

@@ -85,6 +85,12 @@ class LineSet:
     def __len__(self) -> int:
         return len(self.center_A)
 
+    def take(self, idx) -> LineSet:
+        """The lines at positions ``idx`` (indices or a boolean mask)."""
+        row = None if self.row is None else self.row[idx]
+        return LineSet(self.center_A[idx], self.strength_A[idx], self.sigma_A[idx], self.gamma_A[idx],
+                       self.kind[idx], self.species[idx], row)
+
 
 def doppler_sigma_A(wave_A, t_k: float, mass_grams, micro_kms: float):
     """Gaussian standard deviation (Å) of thermal plus microturbulent Doppler broadening."""

@@ -140,3 +140,17 @@ def test_bad_sdist_hash(tmp_path):
     (tmp_path / dg.SDIST).write_bytes(b"x")
     with pytest.raises(InputError, match="sha256"):
         dg.fetch(tmp_path)
+
+
+def test_merged_keeps_hot_star_lines_the_gaia_eso_list_lacks():
+    # He I 4471.48, 5875.62 and 6678.15, C II 4267.26, Si III 4552.62 (air): classic lines of
+    # B stars (Gray & Corbally 2009, ch. 4; common practice) that the GES list (metals of
+    # FGK stars) does not carry.
+    merged = load_merged_lines()
+    for species, air_A in (("He I", 4471.479), ("He I", 5875.621), ("He I", 6678.151),
+                           ("C II", 4267.261), ("Si III", 4552.622)):
+        rows = merged[(merged["species"] == species) & (np.abs(merged["air_A"] - air_A) < 0.01)]
+        assert len(rows) == 1, (species, air_A)
+    # a curated line GES does carry is not doubled: Mg I 5183.60 appears once
+    mg = merged[(merged["species"] == "Mg I") & (np.abs(merged["air_A"] - 5183.60) < 0.05)]
+    assert len(mg) == 1
