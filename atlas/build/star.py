@@ -14,9 +14,9 @@ import numpy as np
 import xarray as xr
 
 from atlas import __version__, store
-from atlas.blaze import fit_orders
-from atlas.continuum import ContinuumSettings, fit_continuum
+from atlas.continuum import ContinuumSettings
 from atlas.errors import InputError
+from atlas.flatten import vacuum_run
 from atlas.lod import FACTOR, build_levels
 from atlas.spectrum import is_echelle, medium_of
 from atlas.strips import (
@@ -91,100 +91,23 @@ class BuildOptions:
 # ---------------------------------------------------------------- one star, in memory
 
 
-def _sorted_1d(wave, *arrays):
-    """Drop samples without a finite positive wavelength; sort by wavelength if needed."""
-    good = np.isfinite(wave) & (wave > 0)
-    dropped = int(good.size - np.count_nonzero(good))
-    if dropped:
-        wave = wave[good]
-        arrays = tuple(None if a is None else a[good] for a in arrays)
-    if wave.size > 1 and not np.all(wave[1:] >= wave[:-1]):
-        order = np.argsort(wave, kind="stable")
-        wave = wave[order]
-        arrays = tuple(None if a is None else a[order] for a in arrays)
-    return wave, arrays, dropped
-
-
-def _to_vacuum(wave, medium: str, notes: list[str]):
-    if medium == "vacuum":
-        return wave
-    from atlas.physics.airvac import air_to_vacuum_A
-
-    if medium != "air":
-        notes.append("wavelength medium unknown: treated as air above 2000 Å and converted to vacuum")
-    return np.asarray(air_to_vacuum_A(wave), dtype=np.float64)
-
-
-def merged_orders(parts, conts) -> dict:
-    """``atlas.merge_orders.merge_orders`` of sorted (wave, flux, mask, uncertainty) parts and their continua."""
-    from atlas.merge_orders import merge_orders
-
-    m = merge_orders([{"wavelength": p[0], "flux": p[1], "mask": p[2], "uncertainty": p[3], "continuum": cc}
-                      for p, cc in zip(parts, conts, strict=True)])
-    m.pop("order")
-    m["continuum"] = m["continuum"].astype(np.float32)
-    return m
-
-
 def prepare(ds: xr.Dataset, options: BuildOptions):
     """Flatten a Spectrum to sorted 1-D vacuum samples with its continuum and strip plan.
 
     Returns ``(seq, plan, notes)``: ``seq`` a dict of 1-D arrays (``wavelength``,
-    ``flux``, ``uncertainty`` or None, ``mask``, ``continuum``) in strip order.
+    ``flux``, ``uncertainty`` or None, ``mask``, ``continuum``) in strip order, and for
+    echelle orders kept as strips ``measure``, the merged spectrum the measurements use
+    (:func:`atlas.flatten.vacuum_run`).
     """
-    notes: list[str] = []
-    medium = medium_of(ds)
-    unc_present = "uncertainty" in ds
-    c = options.continuum
-    if is_echelle(ds):
-        W = np.asarray(ds["wavelength"].values, dtype=np.float64)
-        F = np.asarray(ds["flux"].values, dtype=np.float64)
-        M = np.asarray(ds["mask"].values, dtype=bool) if "mask" in ds else ~np.isfinite(F)
-        U = np.asarray(ds["uncertainty"].values, dtype=np.float64) if unc_present else None
-        W = _to_vacuum(W, medium, notes)
-        parts, dropped = [], 0
-        for o in range(W.shape[0]):
-            w, (f, m, u), d = _sorted_1d(W[o], F[o], M[o], None if U is None else U[o])
-            dropped += d
-            if w.size:
-                parts.append((w, f, m, u))
-        if not parts:
-            raise InputError(ds.attrs.get("source_path", "spectrum"), "no sample has a finite wavelength")
-        parts.sort(key=lambda p: p[0][0])
-        # The orders' continua are fitted together (atlas.blaze): one star continuum, a
-        # blaze shared between neighbouring orders, overlaps that agree.
-        conts = fit_orders([(p[0], p[1], p[2]) for p in parts], c)
-        if not options.merge_orders and options.equal_A is None and options.strip_kms is None:
-            lengths = np.array([p[0].size for p in parts])
-            seq = {
-                "wavelength": np.concatenate([p[0] for p in parts]),
-                "flux": np.concatenate([p[1] for p in parts]),
-                "mask": np.concatenate([p[2] for p in parts]),
-                "uncertainty": np.concatenate([p[3] for p in parts]) if unc_present else None,
-                "continuum": np.concatenate(conts).astype(np.float32),
-                # the measurements use the orders merged into one spectrum (popped by build_star)
-                "measure": merged_orders(parts, conts),
-            }
-            plan = plan_orders(lengths, [p[0][0] for p in parts], [p[0][-1] for p in parts])
-            if dropped:
-                notes.append(f"{dropped} samples without a finite wavelength left out")
+    keep = not options.merge_orders and options.equal_A is None and options.strip_kms is None
+    seq, orders, notes = vacuum_run(ds, options.continuum, keep_orders=keep)
+    if orders is not None:
+        if keep:
+            plan = plan_orders(np.array([o[0] for o in orders]), [o[1] for o in orders],
+                               [o[2] for o in orders])
             return seq, plan, notes
-        seq = merged_orders(parts, conts)
         if not options.merge_orders:
             notes.append("echelle orders merged because a strip width was given")
-    else:
-        w = np.asarray(ds["wavelength"].values, dtype=np.float64)
-        f = np.asarray(ds["flux"].values, dtype=np.float64)
-        m = np.asarray(ds["mask"].values, dtype=bool) if "mask" in ds else ~np.isfinite(f)
-        u = np.asarray(ds["uncertainty"].values, dtype=np.float64) if unc_present else None
-        w = _to_vacuum(w, medium, notes)
-        w, (f, m, u), dropped = _sorted_1d(w, f, m, u)
-        if w.size == 0:
-            raise InputError(ds.attrs.get("source_path", "spectrum"), "no sample has a finite wavelength")
-        seq = {"wavelength": w, "flux": f, "mask": m, "uncertainty": u}
-        seq["continuum"] = fit_continuum(w, f, m, c).astype(np.float32)
-    if dropped:
-        notes.append(f"{dropped} samples without a finite wavelength left out")
     wave = seq["wavelength"]
     if options.equal_A is not None:
         plan = plan_equal_A(wave, options.equal_A, options.overlap)
@@ -377,18 +300,10 @@ def build_star(path: str, options: BuildOptions, atlas_url: str, sha: str, in_us
     write_star_arrays(atlas_url, sname, seq, plan, attrs)
     if measure is not None:  # echelle orders, one strip each: measured merged
         seq = measure
-    # echelle input: the orders' own continua (their blaze) normalise the merged spectrum
-    # for the class and the features; other spectra are normalised inside the measurements
-    cont = seq.pop("continuum")
-    if not is_echelle(ds):
-        del cont
-        cont = None
-    vac_vars = {"flux": ("sample", seq["flux"]), "mask": ("sample", seq["mask"])}
+    # the measurements see the store's own continuum (echelle: the merged orders')
+    vac_vars = {k: ("sample", seq[k]) for k in ("flux", "mask", "continuum")}
     if seq.get("uncertainty") is not None:
         vac_vars["uncertainty"] = ("sample", seq["uncertainty"])
-    if cont is not None:
-        vac_vars["continuum"] = ("sample", cont)
-        del cont
     vac = xr.Dataset(
         vac_vars,
         coords={"wavelength": ("sample", seq["wavelength"], {"medium": "vacuum"})},
@@ -404,19 +319,11 @@ def build_star(path: str, options: BuildOptions, atlas_url: str, sha: str, in_us
     notes += lnotes
     if lines_ds is not None:
         store.write_lines(atlas_url, sname, lines_ds)
-    if extra.get("rv_obs_kms") is not None:
-        from atlas.measure.card import star_features
-
-        try:
-            feats = star_features(extra.get("measured_ds", vac), rv_obs_kms=extra["rv_obs_kms"], rv_err_kms=extra.get("rv_err_kms") or 0.0,
-                                  line_fwhm_kms=extra.get("line_fwhm_kms") or 10.0)
-        except (ValueError, RuntimeError, np.linalg.LinAlgError) as exc:
-            notes.append(f"no features: {exc}")
-        else:
-            store.write_features(atlas_url, sname, feats)
-        extra.clear()
-    else:
+    if extra.get("features") is not None:
+        store.write_features(atlas_url, sname, extra["features"])
+    elif extra.get("measurement") is not None and extra["measurement"].rv is None:
         notes.append("no features: no radial velocity to place the line list")
+    extra.clear()
     del vac
     store_sha = store.seal(atlas_url, sname)
     if plan.mode == "velocity":

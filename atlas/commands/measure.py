@@ -123,7 +123,7 @@ def readable(name, res) -> str:
             out.append(f"    {r['observed_A']:10.3f}  {r['rest_A']:10.3f}  {r['species']:<8} "
                        f"{r['depth']:5.3f}  {r['ew_mA']:7.1f}  {_fmt(r.get('offset_kms'), '+7.2f'):>7}"
                        + ("" if r.get("kind") in (None, "atomic", "telluric") else f"  ({r['kind']})"))
-    un = res.get("unidentified", [])
+    un = res.get("unexplained", [])
     if un:
         out.append(f"  unexplained features ({len(un)}, most significant first):")
         for r in un[:30]:

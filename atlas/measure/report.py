@@ -1,52 +1,56 @@
 """All measurements of one Spectrum in one call: velocity, lines, temperature, class.
 
-Used by ``striae measure`` and available to the viewer; the build's per-star numbers
-come from :func:`atlas.measure.card.star_measurements`, which calls the same pieces.
+Used by ``striae measure``.  The numbers come from
+:func:`atlas.measure.pipeline.measure_run` on the run of
+:func:`atlas.flatten.vacuum_run`, the same steps the build takes, so a star measured
+here and the same star in a built atlas agree; wavelengths are reported in the file's
+medium (air files: converted back from vacuum with the IAU formula).
 """
 
 from __future__ import annotations
 
 import numpy as np
 
-from atlas.measure import classify as cls
-from atlas.measure import identify as ident
 from atlas.measure import rv as rvmod
-from atlas.measure import velocity
 from atlas.spectrum import finite_or_none
 
 
-def normalised_1d(ds, continuum=None):
-    """(wave_A, norm_flux, norm_sigma, flux, sigma) of a Spectrum as one sorted 1-D run.
+def spectrum_run(ds, continuum=None):
+    """(seq, rv_source) of a Spectrum: the 1-D vacuum run and the echelle orders (or None).
 
-    Echelle orders are normalised each by its own continuum, then merged.  Masked or
-    non-finite samples are dropped; sigma is None without an uncertainty variable.
+    With ``continuum`` (a 1-D vacuum Spectrum of a built atlas and its stored
+    continuum) the run is the Spectrum itself; otherwise
+    :func:`atlas.flatten.vacuum_run` with the build's default continuum settings.
     """
-    wave = np.atleast_2d(np.asarray(ds["wavelength"].values, dtype=np.float64))
-    flux = np.atleast_2d(np.asarray(ds["flux"].values, dtype=np.float64))
-    unc = np.atleast_2d(ds["uncertainty"].values) if "uncertainty" in ds else None
-    mask = np.atleast_2d(ds["mask"].values) if "mask" in ds else np.zeros(flux.shape, bool)
-    cont = None if continuum is None else np.atleast_2d(np.asarray(continuum, dtype=np.float64))
-    ws, fs, ss, rs, us = [], [], [], [], []
-    for k in range(flux.shape[0]):
-        o = np.argsort(wave[k], kind="stable")
-        w, f, b = wave[k][o], flux[k][o], mask[k][o] | ~np.isfinite(flux[k][o])
-        c = cont[k][o] if cont is not None else rvmod.normalise(w, f, b, order=flux.shape[0] > 1)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            fn = f / c
-            sn = None if unc is None else unc[k][o] / c
-        # where the continuum failed (order ends, blaze edges) the ratio is absurd: dropped
-        keep = ~b & np.isfinite(fn) & (c > 0) & (fn > -0.2) & (fn < 2.0)
-        ws.append(w[keep])
-        fs.append(fn[keep])
-        rs.append(f[keep])
-        if unc is not None:
-            ss.append(sn[keep])
-            us.append(unc[k][o][keep])
-    w = np.concatenate(ws)
-    o = np.argsort(w, kind="stable")
-    sig = np.concatenate(ss)[o] if unc is not None else None
-    usig = np.concatenate(us)[o] if unc is not None else None
-    return w[o], np.concatenate(fs)[o], sig, np.concatenate(rs)[o], usig
+    from atlas.flatten import vacuum_run
+    from atlas.spectrum import is_echelle
+
+    if continuum is None:
+        seq, _, _ = vacuum_run(ds)
+        return seq, (ds if is_echelle(ds) else None)
+    flux = np.asarray(ds["flux"].values, dtype=np.float64)
+    seq = {"wavelength": np.asarray(ds["wavelength"].values, dtype=np.float64), "flux": flux,
+           "mask": np.asarray(ds["mask"].values, dtype=bool) if "mask" in ds else ~np.isfinite(flux),
+           "continuum": np.asarray(continuum),
+           "uncertainty": ds["uncertainty"].values if "uncertainty" in ds else None}
+    return seq, None
+
+
+def _to_medium(wave_A, medium: str):
+    """Vacuum wavelengths (Å) in the file's medium (unknown is read as air)."""
+    if medium == "vacuum":
+        return wave_A
+    from atlas.physics.airvac import vacuum_to_air_A
+
+    return np.asarray(vacuum_to_air_A(np.asarray(wave_A, dtype=np.float64)), dtype=np.float64)
+
+
+def _to_vacuum_A(x: float, medium: str) -> float:
+    if medium == "vacuum":
+        return x
+    from atlas.physics.airvac import air_to_vacuum_A
+
+    return float(air_to_vacuum_A(np.asarray([x], dtype=np.float64))[0])
 
 
 def measure_spectrum(ds, lines=None, *, calibrated: bool | None = None, site=None, radec=None,
@@ -57,74 +61,55 @@ def measure_spectrum(ds, lines=None, *, calibrated: bool | None = None, site=Non
     the flux unit.  ``ew_ranges`` is a list of (lo_A, hi_A) in the spectrum's medium.
     """
     from atlas.measure.ew import equivalent_width
+    from atlas.measure.pipeline import UNEXPLAINED, measure_run, weak_line_fwhm_kms
     from atlas.spectrum import medium_of
 
-    if lines is None:
-        from atlas.lines import load_lines
-
-        lines = load_lines()
     medium = medium_of(ds)
-    lmed = "vacuum" if medium == "vacuum" else "air"
-    notes = []
-    r = velocity.rv_of_spectrum(ds, lines, site=site, radec=radec, time=time, continuum=continuum)
-    if r.note:
-        notes.append(r.note)
-    out = {
-        "medium": medium,
-        "rv_kms": finite_or_none(r.rv_kms),
-        "rv_err_kms": finite_or_none(r.rv_err_kms),
-        "rv_obs_kms": finite_or_none(r.rv_obs_kms),
-        "barycentric_kms": finite_or_none(r.barycentric_kms),
-        "ccf_fwhm_kms": finite_or_none(r.ccf_fwhm_kms),
-        "ccf_contrast": finite_or_none(r.ccf_contrast),
-        "line_fwhm_kms": finite_or_none(r.line_fwhm_kms),
-        "vsini_rough_kms": finite_or_none(r.vsini_rough_kms),
-        "rv_strips": r.as_dict()["strips"],
-    }
-    w, fn, sn, f_raw, s_raw = normalised_1d(ds, continuum)
-    rv_obs = r.rv_obs_kms if r.rv_obs_kms is not None else 0.0
-    if r.rv_obs_kms is None:
-        notes.append("lines and class placed at zero velocity (no RV)")
-    fwhm = r.line_fwhm_kms or (rvmod.C_KMS / float(ds.attrs.get("resolving_power", 20000.0)))
-
-    # temperature and class
-    if calibrated is None:
-        calibrated = cls.is_calibrated(ds)
-    c = cls.classify(w, fn, sn, rv_obs_kms=rv_obs, line_fwhm_kms=fwhm, medium=lmed)
-    if c.note:
-        notes.append(c.note)
-    out.update(spectral_class=c.spectral_class, class_confidence=finite_or_none(c.class_confidence),
-               class_runner_up=c.runner_up)
-    out["teff_k"] = out["teff_err_k"] = None
-    out["teff_method"] = None
-    if calibrated:
-        try:
-            t, e = cls.colour_temperature(w, f_raw, s_raw)
-            out.update(teff_k=finite_or_none(t), teff_err_k=finite_or_none(e), teff_method="Planck colour temperature")
-        except Exception as exc:  # noqa: BLE001 - a failed fit is reported, not fatal
-            notes.append(f"no colour temperature: {exc}")
-    elif c.class_teff_k is not None:
-        out.update(teff_k=finite_or_none(c.class_teff_k), teff_method="from the class (flux not calibrated)")
-
-    # lines
-    if with_lines:
-        found, unknown = ident.identify_spectrum(
-            w, fn, lines, rv_obs_kms=rv_obs, rv_err_kms=r.rv_err_kms or 1.0, line_fwhm_kms=fwhm,
-            uncertainty=sn, normalised=True, medium=lmed)
-        out["lines"] = _records(found)
-        out["unidentified"] = _records(unknown)
-        # the line width from weak identified lines (depth 0.05-0.5): strong lines'
-        # damping wings widen the RV template's common width
-        weak = found[(found.depth > 0.05) & (found.depth < 0.5)] if len(found) else found
+    seq, rv_source = spectrum_run(ds, continuum)
+    m = measure_run(seq, dict(ds.attrs), lines, site=site, radec=radec, time=time,
+                    rv_source=rv_source, calibrated=calibrated, with_features=with_lines)
+    del seq
+    r = m.rv
+    out = {"medium": medium}
+    keys = ("rv_kms", "rv_err_kms", "rv_obs_kms", "ccf_fwhm_kms", "ccf_contrast", "line_fwhm_kms",
+            "vsini_rough_kms", "systematic_kms")
+    out.update({k: (None if r is None else finite_or_none(getattr(r, k))) for k in keys})
+    out["barycentric_kms"] = finite_or_none(m.barycentric_kms)
+    out["method"] = None if r is None else r.method
+    out["rv_strips"] = [] if r is None else r.as_dict()["strips"]
+    c = m.spectral_class
+    out.update(spectral_class=None if c is None else c.spectral_class,
+               class_confidence=None if c is None else finite_or_none(c.class_confidence),
+               class_runner_up=None if c is None else c.runner_up)
+    out.update(teff_k=finite_or_none(m.teff_k), teff_err_k=finite_or_none(m.teff_err_k),
+               teff_method=m.teff_method)
+    if with_lines and m.features is not None:
+        f = m.features.copy()
+        f["observed_A"] = _to_medium(f["observed_A"].to_numpy(), medium)
+        f["rest_A"] = _to_medium(f["rest_A"].to_numpy(), medium)
+        unexplained = f["kind"] == UNEXPLAINED
+        out["lines"] = _records(f[~unexplained])
+        un = f[unexplained].drop(columns=["rest_A", "species", "offset_kms", "quality"])
+        out[UNEXPLAINED] = _records(un.sort_values("significance", ascending=False))
+        # the line width from weak identified lines: strong lines' damping wings widen
+        # the RV template's common width
+        fw, n_weak = weak_line_fwhm_kms(m.features)
         out["line_fwhm_from"] = "RV template"
-        if len(weak) >= 5:
-            out["line_fwhm_kms"] = finite_or_none(np.median(weak.fwhm_kms))
-            out["line_fwhm_from"] = f"median of {len(weak)} weak identified lines"
-            out["vsini_rough_kms"] = finite_or_none(rvmod.vsini_rough(out["line_fwhm_kms"],
-                                                            ds.attrs.get("resolving_power")))
+        if fw is not None:
+            out["line_fwhm_kms"] = finite_or_none(fw)
+            out["line_fwhm_from"] = f"median of {n_weak} weak identified lines"
+            out["vsini_rough_kms"] = finite_or_none(rvmod.vsini_rough(fw, ds.attrs.get("resolving_power")))
     if ew_ranges:
-        out["ew"] = [equivalent_width(w, fn, lo, hi, uncertainty=sn).as_dict() for lo, hi in ew_ranges]
-    out["notes"] = notes
+        nds = m.normalised
+        w, fn = nds["wavelength"].values, nds["flux"].values
+        sn = nds["uncertainty"].values if "uncertainty" in nds else None
+        out["ew"] = []
+        for lo, hi in ew_ranges:
+            e = equivalent_width(w, fn, _to_vacuum_A(lo, medium), _to_vacuum_A(hi, medium),
+                                 uncertainty=sn, mask=nds["mask"].values).as_dict()
+            e.update(lo_A=lo, hi_A=hi)
+            out["ew"].append(e)
+    out["notes"] = m.notes
     return out
 
 

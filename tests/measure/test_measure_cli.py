@@ -12,7 +12,7 @@ from tests.conftest import assert_one_line_error
 
 DEPTH_OF_STRENGTH = {1: 0.7, 2: 0.45, 3: 0.25, 4: 0.12}
 REQUIRED = ("rv_kms", "rv_err_kms", "barycentric_kms", "ccf_fwhm_kms", "teff_k", "teff_err_k",
-            "spectral_class", "lines", "unidentified")
+            "spectral_class", "lines", "unexplained")
 
 
 @pytest.fixture(scope="module")
