@@ -66,13 +66,15 @@ LOGG_BY_LUMINOSITY = {
     "I": 1.0,
     "0": 0.5,
 }
-_LUM = re.compile(r"^\s*[OBAFGKM]\s*(?:\d+(?:\.\d+)?)?\s*(Ia\+|Iab|Ia|Ib|VI|IV|V|III|II|I|0)(?![A-Za-z])")
+_TYPE = re.compile(r"^\s*[OBAFGKM]\s*(?:\d+(?:\.\d+)?)?\s*(.*)$", re.DOTALL)
+_LUM = re.compile(r"^(Ia\+|Iab|Ia|Ib|VI|IV|V|III|II|I|0)(?![A-Za-z])")
 
 
 def logg_of_class(spectral_class: str) -> float | None:
     """log g (cgs) for the luminosity class of ``spectral_class`` ("G2 V" -> 4.5,
     "K0 III" -> 2.5); None when the class names no luminosity class ("G2")."""
-    m = _LUM.match(str(spectral_class or ""))
+    t = _TYPE.match(str(spectral_class or ""))
+    m = None if t is None else _LUM.match(t.group(1))  # the subtype's digits are taken first
     if m is None:
         return None
     lum = m.group(1).replace("Ia+", "0")

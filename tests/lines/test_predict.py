@@ -80,14 +80,14 @@ def test_bad_parameters_raise_one_input_error_naming_them(merged, kwargs, name):
 
 @pytest.mark.parametrize(
     "text, logg",
-    [("G2 V", 4.5), ("K0 III", 2.5), ("K3 IV-V", 3.8), ("B5V", 4.5), ("M2 Iab", 1.0), ("A0 Ia", 0.8), ("F5 II", 1.8)],
+    [("G2 V", 4.5), ("K0 III", 2.5), ("A0 V", 4.5), ("K0III", 2.5), ("O9.5 Ia+", 0.5), ("K3 IV-V", 3.8), ("B5V", 4.5), ("M2 Iab", 1.0), ("A0 Ia", 0.8), ("F5 II", 1.8)],
 )
 def test_logg_of_class_reads_the_luminosity_class(text, logg):
     # Typical log g per luminosity class (Gray 2005, appendix B; from memory)
     assert logg_of_class(text) == logg
 
 
-@pytest.mark.parametrize("text", ["G2", "K", "", None, "hot star"])
+@pytest.mark.parametrize("text", ["G2", "K", "", None, "hot star", "A0", "K0", "B0.5"])
 def test_logg_of_class_is_none_without_a_luminosity_class(text):
     assert logg_of_class(text) is None
 
