@@ -122,7 +122,9 @@ def readable(name, res) -> str:
         for r in lines:
             out.append(f"    {r['observed_A']:10.3f}  {r['rest_A']:10.3f}  {r['species']:<8} "
                        f"{r['depth']:5.3f}  {r['ew_mA']:7.1f}  {_fmt(r.get('offset_kms'), '+7.2f'):>7}"
-                       + ("" if r.get("kind") in (None, "atomic", "telluric") else f"  ({r['kind']})"))
+                       + ("" if r.get("kind") in (None, "atomic", "telluric") else f"  ({r['kind']})")
+                       + ("" if not r.get("blend") else "  with " + "; ".join(
+                           f"{b['species']} {b['rest_A']:.2f} ({b['share']:.2f})" for b in r["blend"])))
     un = res.get("unexplained", [])
     if un:
         out.append(f"  unexplained features ({len(un)}, most significant first):")

@@ -149,15 +149,22 @@ def features_dataset(features, rv_obs_kms: float):
     An ``xarray.Dataset`` with dimension ``feature``: ``wavelength_A`` (vacuum,
     observer's frame), ``species`` (empty when unexplained), ``rest_A`` (vacuum rest,
     NaN when unexplained), ``ew_mA`` (Gaussian-fit equivalent width, mÅ),
-    ``ew_err_mA``, ``kind``, ``significance`` (see DEVELOPERS.md, "Atlas on disk").
+    ``ew_err_mA``, ``kind``, ``significance``, ``depth``, ``predicted_depth``,
+    ``explained_fraction``, ``blend`` (text; see DEVELOPERS.md, "Atlas on disk").
     """
     import xarray as xr
 
+    from atlas.measure.contributors import blend_text
+
     num = {"wavelength_A": "observed_A", "rest_A": "rest_A", "ew_mA": "ew_mA",
-           "ew_err_mA": "ew_err_mA", "significance": "significance"}
+           "ew_err_mA": "ew_err_mA", "significance": "significance", "depth": "depth",
+           "predicted_depth": "predicted_depth", "explained_fraction": "explained_fraction"}
     out = xr.Dataset({k: ("feature", features[c].to_numpy(dtype=np.float64)) for k, c in num.items()})
-    for k in ("species", "kind"):
+    texts = {"species": features["species"].astype(str).to_numpy(),
+             "kind": features["kind"].astype(str).to_numpy(),
+             "blend": np.array([blend_text(b) for b in features["blend"]], dtype=str)}
+    for k, v in texts.items():
         # variable-length strings: Zarr v3 has no specified fixed-width unicode type
-        out[k] = ("feature", features[k].astype(str).to_numpy().astype(object))
+        out[k] = ("feature", v.astype(object))
     out.attrs.update(rv_obs_kms=float(rv_obs_kms), medium="vacuum", frame="observed")
     return out

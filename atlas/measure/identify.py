@@ -319,10 +319,20 @@ def _in_band(observed_A: float, bands, factor: float):
     return None
 
 
-def identify_spectrum(wave_A, flux, lines, *, rv_obs_kms: float, rv_err_kms: float = 0.0,
-                      line_fwhm_kms: float = 10.0, uncertainty=None, mask=None, continuum=None,
-                      normalised: bool = False, medium: str = "vacuum", min_sigma: float = 5.0):
-    """Find and identify the absorption lines of a 1-D spectrum: (identified, unidentified).
+def block_noise(norm_flux, block: int = 2000) -> np.ndarray:
+    """Per-sample noise of a normalised flux: DER_SNR's noise (Stoehr et al. 2008, ASP
+    Conf. Ser. 394, 505) of each block of ``block`` samples (NaN where too few are finite)."""
+    fn = np.asarray(norm_flux, dtype=np.float64)
+    sn = np.empty_like(fn)
+    for j in range(0, fn.size, block):
+        blk = fn[j : j + block]
+        sn[j : j + block] = der_noise(blk[np.isfinite(blk)]) if np.isfinite(blk).sum() > 20 else np.nan
+    return sn
+
+
+def spectrum_features(wave_A, flux, *, line_fwhm_kms: float = 10.0, uncertainty=None, mask=None,
+                      continuum=None, normalised: bool = False, min_sigma: float = 5.0) -> pd.DataFrame:
+    """Absorption features of a 1-D spectrum (:func:`find_features`), before any matching.
 
     The continuum is ``continuum``, or none when ``normalised``, else fitted by
     :func:`atlas.measure.rv.normalise`.  Without ``uncertainty`` the noise comes from
@@ -347,10 +357,19 @@ def identify_spectrum(wave_A, flux, lines, *, rv_obs_kms: float, rv_err_kms: flo
         with np.errstate(divide="ignore", invalid="ignore"):
             sn = np.asarray(uncertainty, dtype=np.float64).ravel()[order] / c
     else:
-        sn = np.empty_like(fn)
-        for j in range(0, fn.size, 2000):
-            blk = fn[j : j + 2000]
-            sn[j : j + 2000] = der_noise(blk[np.isfinite(blk)]) if np.isfinite(blk).sum() > 20 else np.nan
-    feats = find_features(w, fn, sn, line_fwhm_kms=line_fwhm_kms, min_sigma=min_sigma)
+        sn = block_noise(fn)
+    return find_features(w, fn, sn, line_fwhm_kms=line_fwhm_kms, min_sigma=min_sigma)
+
+
+def identify_spectrum(wave_A, flux, lines, *, rv_obs_kms: float, rv_err_kms: float = 0.0,
+                      line_fwhm_kms: float = 10.0, uncertainty=None, mask=None, continuum=None,
+                      normalised: bool = False, medium: str = "vacuum", min_sigma: float = 5.0):
+    """Find and identify the absorption lines of a 1-D spectrum: (identified, unidentified).
+
+    Features of :func:`spectrum_features`, matched to the nearest listed line by
+    :func:`identify`.
+    """
+    feats = spectrum_features(wave_A, flux, line_fwhm_kms=line_fwhm_kms, uncertainty=uncertainty,
+                              mask=mask, continuum=continuum, normalised=normalised, min_sigma=min_sigma)
     return identify(feats, lines, rv_obs_kms=rv_obs_kms, rv_err_kms=rv_err_kms,
                     line_fwhm_kms=line_fwhm_kms, medium=medium)

@@ -45,6 +45,8 @@ class StarMeasurement:
     teff_method: str | None = None
     line_fwhm_kms: float | None = None  # the width the features were searched with
     features: pd.DataFrame | None = None
+    predicted: pd.DataFrame | None = None  # lines predicted for this star (atlas.lines.predict)
+    band_depth: tuple | None = None  # (rest_A, depth) of its molecular bands
     notes: list[str] = field(default_factory=list)
     normalised: xr.Dataset | None = None  # the (possibly binned) normalised run
     raw: xr.Dataset | None = None  # the (possibly binned) run before normalisation
@@ -165,9 +167,11 @@ def measure_run(seq: dict, attrs: dict, lines=None, *, site=None, radec=None, ti
         m.teff_method = "from the class (flux not calibrated)"
         m.notes.append("flux not calibrated: teff_k is the class's temperature")
 
+    m.predicted = predict_for(m, nds, m.notes)
     if with_features:
         try:
-            m.features = run_features(nds, lines, rv_obs_kms=rv_obs,
+            m.features = run_features(nds, lines, predicted=m.predicted, band_depth=m.band_depth,
+                                      rv_obs_kms=rv_obs,
                                       rv_err_kms=(m.rv.rv_err_kms if m.rv is not None else None) or 0.0,
                                       line_fwhm_kms=m.line_fwhm_kms)
         except (ValueError, RuntimeError, np.linalg.LinAlgError) as exc:
@@ -175,23 +179,71 @@ def measure_run(seq: dict, attrs: dict, lines=None, *, site=None, radec=None, ti
     return m
 
 
+#: Predicted lines are kept this far (fraction of the wavelength, 600 km/s) beyond the
+#: run's ends, so a star's velocity never moves a line out of reach.
+RV_MARGIN = 600.0 / C_KMS
+
+
+def predict_for(m: StarMeasurement, nds: xr.Dataset, notes: list[str]) -> pd.DataFrame | None:
+    """The lines predicted for a measured star (:func:`atlas.lines.predict.predict_depths`
+    over the run's range, at its ``teff_k`` and the log g of its class, broadened to its
+    line width), or None with a note saying why."""
+    from atlas.errors import InputError
+    from atlas.lines.dense import load_merged_lines
+    from atlas.lines.predict import logg_of_class, predict_depths
+    from atlas.measure.contributors import (
+        IDENTIFY_THRESHOLD,
+        collapse_components,
+        predicted_band_depth,
+    )
+
+    if m.teff_k is None or not np.isfinite(m.teff_k):
+        notes.append("no predicted lines: no Teff was measured (features matched to the nearest listed line)")
+        return None
+    cls = None if m.spectral_class is None else m.spectral_class.spectral_class
+    w = nds["wavelength"].values
+    merged = load_merged_lines()
+    rest = merged["vacuum_A"].to_numpy()
+    lines = merged[(rest > w[0] * (1 - RV_MARGIN)) & (rest < w[-1] * (1 + RV_MARGIN))]
+    try:
+        pred = predict_depths(lines, float(m.teff_k), logg_of_class(cls) if cls else None,
+                              line_fwhm_kms=m.line_fwhm_kms, threshold=IDENTIFY_THRESHOLD)
+    except InputError as exc:
+        notes.append(f"no predicted lines: {exc}")
+        return None
+    notes.extend(pred.attrs.get("notes", []))
+    heads = merged[merged["kind"].astype(str) == "band_head"]  # bands reach far from their heads
+    m.band_depth = predicted_band_depth(heads, float(m.teff_k), logg_of_class(cls) if cls else None,
+                                        w[0] * (1 - RV_MARGIN), w[-1] * (1 + RV_MARGIN))
+    return collapse_components(pred)
+
+
 #: Feature columns in the order they are reported (identified and unexplained alike).
 FEATURE_COLUMNS = ("observed_A", "observed_err_A", "rest_A", "species", "kind", "depth", "depth_err",
-                   "ew_mA", "ew_err_mA", "fwhm_kms", "offset_kms", "quality", "significance")
+                   "ew_mA", "ew_err_mA", "fwhm_kms", "offset_kms", "quality", "significance",
+                   "predicted_depth", "explained_fraction", "share", "blend")
+_TEXT = ("species", "kind", "blend")
 
 #: ``kind`` of a feature nothing explains.
 UNEXPLAINED = "unexplained"
 
 
 def run_features(nds: xr.Dataset, lines, *, rv_obs_kms: float, rv_err_kms: float,
-                 line_fwhm_kms: float, min_sigma: float = 5.0) -> pd.DataFrame:
+                 line_fwhm_kms: float, predicted: pd.DataFrame | None = None,
+                 band_depth=None, min_sigma: float = 5.0) -> pd.DataFrame:
     """Found features of a normalised 1-D run, identified or not, sorted by wavelength.
 
-    One row per feature with :data:`FEATURE_COLUMNS` (vacuum Å, observer's frame);
-    a feature nothing explains has ``kind`` :data:`UNEXPLAINED`, an empty ``species``
-    and NaN ``rest_A``.  Works :data:`FEATURE_PIECE` samples at a time.
+    One row per feature with :data:`FEATURE_COLUMNS` (vacuum Å, observer's frame).  With
+    ``predicted`` (the star's predicted lines) each feature gets its contributors
+    (:func:`atlas.measure.contributors.attribute`); without, the nearest listed line
+    (:func:`atlas.measure.identify.identify`; ``predicted_depth``,
+    ``explained_fraction``, ``share`` NaN, ``blend`` empty); ``band_depth`` as
+    :func:`atlas.measure.contributors.attribute` takes it.  A feature nothing explains
+    has ``kind`` :data:`UNEXPLAINED`, an empty ``species`` and NaN ``rest_A``.  Works
+    :data:`FEATURE_PIECE` samples at a time.
     """
-    from atlas.measure.identify import identify_spectrum
+    from atlas.measure.contributors import attribute
+    from atlas.measure.identify import identify
 
     wave = np.asarray(nds["wavelength"].values)
     frames = []
@@ -200,24 +252,68 @@ def run_features(nds: xr.Dataset, lines, *, rv_obs_kms: float, rv_err_kms: float
         unc = nds["uncertainty"].values[sl] if "uncertainty" in nds else None
         if unc is not None and not np.isfinite(unc).any():
             unc = None
-        found, unknown = identify_spectrum(wave[sl], nds["flux"].values[sl], lines, rv_obs_kms=rv_obs_kms,
-                                           rv_err_kms=rv_err_kms, line_fwhm_kms=line_fwhm_kms,
-                                           uncertainty=unc, mask=nds["mask"].values[sl],
-                                           normalised=True, medium="vacuum", min_sigma=min_sigma)
+        feats = _piece_features(wave[sl], nds["flux"].values[sl], unc, nds["mask"].values[sl],
+                                predicted, rv_obs_kms, line_fwhm_kms, min_sigma)
+        if not len(feats):
+            continue
+        if predicted is not None:
+            frames.append(attribute(feats, predicted, lines, rv_obs_kms=rv_obs_kms, rv_err_kms=rv_err_kms,
+                                    band_depth=band_depth))
+            continue
+        found, unknown = identify(feats, lines, rv_obs_kms=rv_obs_kms, rv_err_kms=rv_err_kms,
+                                  line_fwhm_kms=line_fwhm_kms, medium="vacuum")
         if len(unknown):
             unknown = unknown.assign(rest_A=np.nan, species="", kind=UNEXPLAINED,
                                      offset_kms=np.nan, quality=np.nan)
-        frames += [df for df in (found, unknown) if len(df)]
+        for df in (found, unknown):
+            if len(df):
+                frames.append(df.assign(predicted_depth=np.nan, explained_fraction=np.nan, share=np.nan,
+                                        blend=[[] for _ in range(len(df))]))
     if not frames:
-        return pd.DataFrame({k: pd.Series(dtype=object if k in ("species", "kind") else np.float64)
+        return pd.DataFrame({k: pd.Series(dtype=object if k in _TEXT else np.float64)
                              for k in FEATURE_COLUMNS})
     out = pd.concat([f[list(FEATURE_COLUMNS)] for f in frames], ignore_index=True)
     for k in FEATURE_COLUMNS:
-        if k not in ("species", "kind"):
+        if k not in _TEXT:
             out[k] = out[k].astype(np.float64)
     out["species"] = out["species"].astype(str)
     out["kind"] = out["kind"].astype(str)
     return out.sort_values("observed_A", kind="stable", ignore_index=True)
+
+
+def _piece_features(w, f, unc, mask, predicted, rv_obs_kms, line_fwhm_kms, min_sigma):
+    """Features of one piece of a normalised run, the strong lines' wings divided out
+    (:mod:`atlas.measure.wings`) when the star's predicted lines are known."""
+    from atlas.measure.identify import block_noise, spectrum_features
+    from atlas.measure.wings import core_slices, divide_wings, strong_centres_A
+
+    fn = np.where(np.asarray(mask, dtype=bool), np.nan, np.asarray(f, dtype=np.float64))
+    sn = np.asarray(unc, dtype=np.float64) if unc is not None else block_noise(fn)
+    centres = strong_centres_A(predicted, rv_obs_kms)
+    fd, sd, changed = divide_wings(w, fn, sn, centres, line_fwhm_kms)
+    kw = {"line_fwhm_kms": line_fwhm_kms, "normalised": True, "min_sigma": min_sigma}
+    feats = spectrum_features(w, fd, uncertainty=sd, **kw)
+    if not changed:
+        return feats
+    # each strong line's core: one feature measured on the undivided flux
+    cores = [c for c in core_slices(w, centres, line_fwhm_kms)
+             if any(a <= (c[0] + c[1]) // 2 < b for a, b in changed)]
+    keep = np.ones(len(feats), dtype=bool)
+    found = [feats]
+    pad = int(np.ceil(3 * line_fwhm_kms / max(float(np.median(np.diff(np.log(w)))) * C_KMS, 1e-9)))
+    for a, b in cores:
+        lo_A, hi_A = w[a], w[b - 1]
+        keep &= ~((feats["observed_A"] >= lo_A) & (feats["observed_A"] <= hi_A)).to_numpy()
+        sl = slice(max(0, a - pad), min(w.size, b + pad))
+        core = spectrum_features(w[sl], fn[sl], uncertainty=sn[sl], **kw)
+        inside = core[(core["observed_A"] >= lo_A) & (core["observed_A"] <= hi_A)]
+        if len(inside):
+            found.append(inside.nlargest(1, "depth"))
+    found[0] = feats[keep]
+    found = [x for x in found if len(x)]
+    if not found:
+        return feats.iloc[:0]
+    return pd.concat(found, ignore_index=True).sort_values("observed_A", ignore_index=True)
 
 
 #: Weak identified lines (depth in this range) give the star's line width: strong

@@ -87,9 +87,11 @@ def measure_spectrum(ds, lines=None, *, calibrated: bool | None = None, site=Non
         f = m.features.copy()
         f["observed_A"] = _to_medium(f["observed_A"].to_numpy(), medium)
         f["rest_A"] = _to_medium(f["rest_A"].to_numpy(), medium)
+        back = (lambda x: float(_to_medium(np.array([x]), medium)[0])) if medium != "vacuum" else float
+        f["blend"] = [[{"species": sp, "rest_A": back(wv), "share": sh} for sp, wv, sh in b] for b in f["blend"]]
         unexplained = f["kind"] == UNEXPLAINED
         out["lines"] = _records(f[~unexplained])
-        un = f[unexplained].drop(columns=["rest_A", "species", "offset_kms", "quality"])
+        un = f[unexplained].drop(columns=["rest_A", "species", "offset_kms", "quality", "share", "blend"])
         out[UNEXPLAINED] = _records(un.sort_values("significance", ascending=False))
         # the line width from weak identified lines: strong lines' damping wings widen
         # the RV template's common width
