@@ -17,8 +17,9 @@ from bokeh.models import CustomJS
 from panel.io.resources import LOCAL_DIST
 
 from atlas.app.data import open_view_atlas
+from atlas.app.scripts import KEYS_JS
 from atlas.app.state import URL_PARAMS, ViewState, parse_search, to_query
-from atlas.app.viewer import KEYS_JS, Viewer
+from atlas.app.viewer import Viewer
 
 _log = logging.getLogger("striae.serve")
 

@@ -69,30 +69,30 @@ def viewer(built_atlas):
 
 
 def test_choosing_a_second_star_shows_linked_panels_in_the_rest_frame(viewer):
-    assert not viewer.cmp_box.visible
-    viewer.choose_compare("test-star-b")
+    assert not viewer.compare.box.visible
+    viewer.compare.choose("test-star-b")
     st = viewer.state
     assert st.compare == "test-star-b" and st.frame == "rest"
     st.param.update(lo=6020.0, hi=6060.0)
-    assert viewer.cmp_box.visible
-    xr = {id(f.x_range) for f in viewer.cmp_figs}
+    assert viewer.compare.box.visible
+    xr = {id(f.x_range) for f in viewer.compare.figs}
     assert len(xr) == 1  # one shared range: the three plots pan and zoom together
-    f = viewer.cmp_figs[0]
+    f = viewer.compare.figs[0]
     assert (f.x_range.start, f.x_range.end) == pytest.approx((6020.0, 6060.0))
-    from atlas.app.viewer import plot_width_px
+    from atlas.app.strippanel import plot_width_px
 
     cap = 2 * plot_width_px(f)
-    for src in (viewer.cmp_a, viewer.cmp_b):
+    for src in (viewer.compare.a, viewer.compare.b):
         n = len(src.data["x"])
         assert 0 < n <= cap
         x = np.asarray(src.data["x"], float)
         assert np.nanmin(x) >= 6020.0 - 0.01 and np.nanmax(x) <= 6060.0 + 0.01
     # both invented stars carry the same lines at the same depth (tests/app/atlas_fixture.py),
     # placed by their own RVs: in the rest frame the difference stays small
-    d = np.asarray(viewer.cmp_d.data["y"], float)
+    d = np.asarray(viewer.compare.d.data["y"], float)
     assert len(d) > 0 and np.nanmax(np.abs(d)) < 0.2
-    viewer.choose_compare("")
-    assert not viewer.cmp_box.visible
+    viewer.compare.choose("")
+    assert not viewer.compare.box.visible
 
 
 def test_compare_equal_to_star_is_refused(viewer):

@@ -15,21 +15,21 @@ def viewer(make_viewer):
 def test_pdf_of_the_page_clamps_strips_per_page(viewer):
     from atlas.export.pdf import max_per_page
 
-    v = viewer.export_view()
+    v = viewer.controls.export_view()
     assert v["per_page"] == min(12, max_per_page("a4"))
-    buf = viewer.export_pdf_bytes()
+    buf = viewer.controls.export_pdf_bytes()
     data = buf.getvalue()
     assert data.startswith(b"%PDF") and len(data) > 1000
-    assert viewer.w_pdf.filename == "test-star-a.pdf"
+    assert viewer.controls.w_pdf.filename == "test-star-a.pdf"
 
 
 def test_html_of_a_zoomed_window_carries_the_marks_as_text(viewer):
     st = viewer.state
     st.param.update(lo=5005.0, hi=5015.0)
-    viewer.add_mark_text("5008-5010 <script>alert(1)</script>")
-    v = viewer.export_view()
+    viewer.marks.add_text("5008-5010 <script>alert(1)</script>")
+    v = viewer.controls.export_view()
     assert (v["lo"], v["hi"]) == (5005.0, 5015.0)
-    page = viewer.export_html_bytes().getvalue().decode()
+    page = viewer.controls.export_html_bytes().getvalue().decode()
     assert "&lt;script&gt;alert(1)&lt;/script&gt;" in page
     assert "<script>alert(1)</script>" not in page
 
@@ -41,5 +41,5 @@ def test_export_refusal_becomes_a_notice(viewer, monkeypatch):
         raise InputError("frame", "no such frame here")
 
     monkeypatch.setattr("atlas.export.export_pdf", refuse)
-    assert viewer.export_pdf_bytes() is None
+    assert viewer.controls.export_pdf_bytes() is None
     assert viewer.notice.visible and "no such frame here" in viewer.notice.object

@@ -26,28 +26,28 @@ def viewer(make_viewer):
 
 def test_typed_mark_is_added_drawn_edited_and_deleted(viewer):
     st = viewer.state
-    viewer.add_mark_text("5010-5020 first <script>alert(1)</script>")
+    viewer.marks.add_text("5010-5020 first <script>alert(1)</script>")
     assert st.marks == [[5010.0, 5020.0, "first <script>alert(1)</script>"]]
-    slot = viewer.slots[0]
+    slot = viewer.strips.slots[0]
     assert list(slot.ksrc.data["note"]) == ["first <script>alert(1)</script>"]  # canvas text
-    viewer.add_mark_text("5030-5031")
-    viewer.edit_mark(1, note="second")
+    viewer.marks.add_text("5030-5031")
+    viewer.marks.edit(1, note="second")
     assert st.marks[1] == [5030.0, 5031.0, "second"]
-    assert "second" in " ".join(viewer.w_mark_pick.options)
-    viewer.delete_mark(0)
+    assert "second" in " ".join(viewer.marks.w_pick.options)
+    viewer.marks.delete(0)
     assert st.marks == [[5030.0, 5031.0, "second"]]
 
 
 def test_bad_typed_mark_gives_a_notice_and_changes_nothing(viewer):
-    viewer.add_mark_text("from here to there")
+    viewer.marks.add_text("from here to there")
     assert viewer.state.marks == [] and viewer.notice.visible
 
 
 def test_mark_tool_edits_reach_the_state(viewer):
     st = viewer.state
-    viewer.add_mark_text("5005-5010 keep")
-    viewer.add_mark_text("5015-5020 drop")  # both in strip 0 (about 4928..5028 Å air)
-    slot = viewer.slots[0]
+    viewer.marks.add_text("5005-5010 keep")
+    viewer.marks.add_text("5015-5020 drop")  # both in strip 0 (about 4928..5028 Å air)
+    slot = viewer.strips.slots[0]
     # the browser moved mark 0, deleted mark 1 and drew a new band (index = empty value)
     assert slot.mark_idx == [0, 1]
     slot.ksrc.data = {"x0": [5006.0, 5022.0], "x1": [5011.0, 5025.0], "note": ["keep", -1],
@@ -57,10 +57,10 @@ def test_mark_tool_edits_reach_the_state(viewer):
 
 def test_marks_follow_a_change_of_frame(viewer):
     st = viewer.state
-    viewer.add_mark_text("5010-5020 m")
-    fr0 = viewer.frame()
+    viewer.marks.add_text("5010-5020 m")
+    fr0 = viewer.vm.frame()
     st.frame = "rest"
     a, b, note = st.marks[0]
-    back = fr0.to_display_A(viewer.frame().from_display_A([a, b]))
+    back = fr0.to_display_A(viewer.vm.frame().from_display_A([a, b]))
     assert back == pytest.approx([5010.0, 5020.0], abs=1e-4) and note == "m"
     assert a != pytest.approx(5010.0, abs=1e-3)  # rv 25 km/s, bary -5: a real shift

@@ -7,10 +7,12 @@ import pytest
 
 pytest.importorskip("panel")
 
+from atlas.app.card import star_card_html, swatch_css  # noqa: E402
 from atlas.app.data import open_view_atlas  # noqa: E402
 from atlas.app.frames import Frame  # noqa: E402
 from atlas.app.state import ViewState  # noqa: E402
-from atlas.app.viewer import DEFAULT_PX, Viewer, star_card_html, swatch_css  # noqa: E402
+from atlas.app.strippanel import DEFAULT_PX  # noqa: E402
+from atlas.app.viewer import Viewer  # noqa: E402
 
 
 class _Range:
@@ -27,81 +29,81 @@ def viewer(built_atlas):
 
 
 def shown(v):
-    return [s.strip for s in v.slots if s.fig.visible]
+    return [s.strip for s in v.strips.slots if s.fig.visible]
 
 
 def test_pages_step_and_show_other_strips(viewer):
     assert shown(viewer) == [0, 1, 2]
-    viewer.key("page+")
+    viewer.controls.key("page+")
     assert viewer.state.page == 2 and shown(viewer) == [3, 4, 5]
-    viewer.key("last")
+    viewer.controls.key("last")
     assert shown(viewer)[0] == 9 and viewer.state.page == 4
-    viewer.key("page+")  # stays on the last page
+    viewer.controls.key("page+")  # stays on the last page
     assert viewer.state.page == 4
 
 
 def test_strip_steps_move_the_focus_and_turn_pages(viewer):
-    viewer.key("strip+")
-    assert viewer.zoom_strip() == 0
+    viewer.controls.key("strip+")
+    assert viewer.vm.zoom_strip() == 0
     for _ in range(3):
-        viewer.key("strip+")
-    assert viewer.zoom_strip() == 3 and viewer.state.page == 2
+        viewer.controls.key("strip+")
+    assert viewer.vm.zoom_strip() == 3 and viewer.state.page == 2
 
 
 def test_a_zoom_narrows_the_range_and_stays_bounded(viewer):
-    slot = viewer.slots[1]
+    slot = viewer.strips.slots[1]
     x0, x1 = slot.fig.x_range.start, slot.fig.x_range.end
     n_full = len(slot.src.data["x"])
     assert n_full <= 2 * DEFAULT_PX
     a, b = x0 + 0.4 * (x1 - x0), x0 + 0.45 * (x1 - x0)
-    viewer.on_range(slot, _Range(a, b))
+    viewer.strips.on_range(slot, _Range(a, b))
     assert viewer.state.lo == pytest.approx(a) and viewer.state.hi == pytest.approx(b)
     assert (slot.fig.x_range.start, slot.fig.x_range.end) == pytest.approx((a, b))
     xs = slot.src.data["x"]
     assert 0 < len(xs) <= 2 * DEFAULT_PX
     assert xs.min() >= a - 0.05 and xs.max() <= b + 0.05
     assert slot.level == 0  # 5% of a strip: real samples
-    viewer.key("whole")
+    viewer.controls.key("whole")
     assert viewer.state.lo is None and slot.fig.x_range.start == pytest.approx(x0)
 
 
 def test_frame_changes_keep_the_zoomed_stretch(viewer):
-    slot = viewer.slots[0]
+    slot = viewer.strips.slots[0]
     x0 = slot.fig.x_range.start
-    viewer.on_range(slot, _Range(x0 + 10, x0 + 12))
-    rec = viewer.record()
+    viewer.strips.on_range(slot, _Range(x0 + 10, x0 + 12))
+    rec = viewer.vm.record()
     before = Frame("observed", "air", rec["rv_kms"], rec["barycentric_kms"]).from_display_A(
         np.array([viewer.state.lo, viewer.state.hi]))
     viewer.state.frame = "rest"
-    after = viewer.frame().from_display_A(np.array([viewer.state.lo, viewer.state.hi]))
+    after = viewer.vm.frame().from_display_A(np.array([viewer.state.lo, viewer.state.hi]))
     np.testing.assert_allclose(after, before, atol=1e-6)
 
 
 def test_go_to_a_line_opens_a_window_on_its_shifted_position(viewer, line_rows):
     # markers show the lines predicted for the star: the toy star a is measured as a hot
     # star (B2 here), so He I 5876 is marked and Na I D is not
-    viewer.go_to("He I 5876")
+    viewer.controls.go_to("He I 5876")
     row = line_rows[(line_rows["species"] == "He I") & (abs(line_rows["air_A"] - 5875.62) < 0.01)].iloc[0]
     # observed frame: rest vacuum x D(rv) / D(v_bary), Wright & Eastman (2014, PASP 126, 838)
     expect = Frame("observed", "air", 25.0, -5.0).rest_vac_to_display_A([row["vacuum_A"]])[0]
     assert viewer.state.lo < expect < viewer.state.hi
     assert viewer.state.ref.startswith("He I 5875.6")
-    zs = viewer.zoom_strip()
-    slot = next(s for s in viewer.slots if s.strip == zs)
+    zs = viewer.vm.zoom_strip()
+    slot = next(s for s in viewer.strips.slots if s.strip == zs)
     xs = np.asarray(slot.msrc.data["x"])
     assert np.min(np.abs(xs - expect)) < 1e-6
 
 
 def test_go_to_nonsense_leaves_the_view_and_shows_a_notice(viewer):
     before = viewer.state.values()
-    viewer.go_to("nowhere at all")
+    viewer.controls.go_to("nowhere at all")
     assert viewer.state.values() == before
     assert viewer.notice.visible and "go to" in viewer.notice.object
 
 
 def test_switching_star_resets_page_and_zoom(viewer):
-    viewer.key("page+")
-    viewer.choose_star("test-star-b")
+    viewer.controls.key("page+")
+    viewer.controls.choose_star("test-star-b")
     assert (viewer.state.star, viewer.state.page, viewer.state.lo) == ("test-star-b", 1, None)
 
 
@@ -132,9 +134,9 @@ def test_a_link_with_bad_values_opens_with_defaults_and_a_notice(built_atlas):
 
 def test_a_value_set_behind_the_parsers_back_is_put_back(viewer):
     # the URL sync may set any value its parameter type accepts; the state watcher re-checks
-    viewer.key("page+")
+    viewer.controls.key("page+")
     viewer.state.star = "no-such-star"
     assert viewer.state.star == "test-star-a"
     viewer.state.page = 999
-    assert viewer.state.page == viewer.n_pages()
+    assert viewer.state.page == viewer.vm.n_pages()
     assert viewer.notice.visible

@@ -90,25 +90,25 @@ def view_updates(atlas_dir, sid, n_updates, rng, width_px=1100, cold=False):
     state = ViewState()
     state.param.update(star=sid, per_page=5)
     v = Viewer(data, state)
-    n_pages = v.n_pages()
+    n_pages = v.vm.n_pages()
     zoom_ms, page_ms, sent, full = [], [], [], []
-    n_strip_samples = data.record(sid)["samples"] / max(1, v.n_strips())
+    n_strip_samples = data.record(sid)["samples"] / max(1, v.vm.n_strips())
     for _ in range(n_updates):
         p = int(rng.integers(1, n_pages + 1))
         if cold:
             lod.clear_cache()
-            v._yrange.clear()
+            v.strips._yrange.clear()
         t = time.perf_counter()
         state.param.update(page=p, lo=None, hi=None)
-        page_ms.append((time.perf_counter() - t) * 1e3 / max(1, len(v.page_strips())))
-        slot = v.slots[int(rng.integers(0, len(v.page_strips())))]
+        page_ms.append((time.perf_counter() - t) * 1e3 / max(1, len(v.vm.page_strips())))
+        slot = v.strips.slots[int(rng.integers(0, len(v.vm.page_strips())))]
         a, b = slot.fig.x_range.start, slot.fig.x_range.end
         f = 10 ** rng.uniform(-3, -0.1)  # from 0.1% to 80% of the strip
         x0 = a + rng.uniform(0, 1 - f) * (b - a)
         t = time.perf_counter()
-        v.on_range(slot, _Ev(x0, x0 + f * (b - a)))
+        v.strips.on_range(slot, _Ev(x0, x0 + f * (b - a)))
         zoom_ms.append((time.perf_counter() - t) * 1e3)
-        shown = [s for s in v.slots if s.fig.visible]
+        shown = [s for s in v.strips.slots if s.fig.visible]
         sent.append(max(len(s.src.data["x"]) for s in shown))
         full.append(n_strip_samples)
     return {"zoom_ms": zoom_ms, "page_ms_per_strip": page_ms, "max_sent": max(sent),
@@ -173,13 +173,13 @@ def concurrent_sessions(atlas_dir, n_sessions, n_updates):
                 try:
                     v = viewer
                     if rng.random() < 0.5:
-                        v.key("page+" if rng.random() < 0.7 else "page-")
+                        v.controls.key("page+" if rng.random() < 0.7 else "page-")
                     else:
-                        slot = v.slots[0]
+                        slot = v.strips.slots[0]
                         a, b = slot.fig.x_range.start, slot.fig.x_range.end
                         f = 10 ** rng.uniform(-2.5, -0.2)
                         x0 = a + rng.uniform(0, 1 - f) * (b - a)
-                        v.on_range(slot, _Ev(x0, x0 + f * (b - a)))
+                        v.strips.on_range(slot, _Ev(x0, x0 + f * (b - a)))
                 except Exception as exc:  # counted, not raised
                     box["err"] = repr(exc)
                 finally:
