@@ -55,6 +55,7 @@ PER_PAGE_MAX = 100  # the viewer and the PDF narrow it (see ``bounds`` of parse_
 MAX_SPECIES = 40
 MAX_MARKS = 50
 MAX_NOTE = 80
+MAX_FEATURES = 1_000_000  # a chosen feature is a row number below this
 MAX_TEXT = 40  # characters of a bad value quoted back in a message
 
 POLICIES = ("clamp", "refuse")
@@ -262,11 +263,13 @@ PARAMS: dict[str, Param] = {p.name: p for p in (
     Param("strength", 3, _bounded("strength", 1, 4), "weakest line strength class marked"),
     Param("ref", "", lambda v, p, c: read_ref(v), "reference line of the velocity readout"),
     Param("marks", [], lambda v, p, c: read_marks(v, p), "marked ranges [lo_A, hi_A, note]"),
+    Param("feature", -1, _bounded("feature", -1, MAX_FEATURES),
+          "chosen found feature: its row in wavelength order, -1 = none"),
 )}
 
 #: The parameters of a view, in the order a link lists them.
 NAMES = ("star", "compare", "page", "per_page", "lo", "hi", "frame", "medium", "unit",
-         "flux", "lines", "strength", "ref", "marks")
+         "flux", "lines", "strength", "ref", "marks", "feature")
 assert set(NAMES) == set(PARAMS)
 
 

@@ -171,7 +171,7 @@ class Controls:
 
     def choose_star(self, star_id):
         if star_id and star_id != self.vm.state.star:
-            self.vm.state.param.update(star=star_id, page=1, lo=None, hi=None, compare="")
+            self.vm.state.param.update(star=star_id, page=1, lo=None, hi=None, compare="", feature=-1)
 
     def export_view(self) -> dict:
         """The current view as export arguments (``atlas.export``): the zoom window, or

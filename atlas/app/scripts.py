@@ -63,7 +63,8 @@ out.text = '<b>' + m.frame[0] + ' frame</b> · λ ' + air.toFixed(3) + ' Å air 
 KEYS_JS = """
 if (window.__striae_keys) { window.removeEventListener('keydown', window.__striae_keys); }
 const actions = {ArrowDown: 'strip+', ArrowRight: 'strip+', ArrowUp: 'strip-', ArrowLeft: 'strip-',
-                 PageDown: 'page+', PageUp: 'page-', Home: 'first', End: 'last'};
+                 PageDown: 'page+', PageUp: 'page-', Home: 'first', End: 'last',
+                 f: 'feature+', F: 'feature-'};
 window.__striae_keys = (e) => {
   const t = e.composedPath ? e.composedPath()[0] : e.target;
   if (t && (t.tagName === 'INPUT' || t.tagName === 'TEXTAREA' || t.tagName === 'SELECT' || t.isContentEditable)) { return; }

@@ -44,6 +44,7 @@ import param
 from atlas.viewspec import (
     FLUXES,
     FRAMES,
+    MAX_FEATURES,
     MAX_MARKS,
     MAX_NOTE,
     MAX_PAGE,
@@ -92,6 +93,7 @@ class ViewState(param.Parameterized):
     strength = param.Integer(default=PARAMS["strength"].default, bounds=(1, 4), doc=_doc("strength"))
     ref = param.String(default="", doc=_doc("ref"))
     marks = param.List(default=[], doc=_doc("marks"))
+    feature = param.Integer(default=-1, bounds=(-1, MAX_FEATURES), doc=_doc("feature"))
 
     def values(self) -> dict[str, Any]:
         """The URL parameters as a plain dict."""

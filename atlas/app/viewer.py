@@ -18,7 +18,7 @@ import numpy as np
 import panel as pn
 from bokeh.models import Div
 
-from atlas.app import card, comparepanel, controls, markspanel, overview, strippanel
+from atlas.app import card, comparepanel, controls, featurespanel, markspanel, overview, strippanel
 from atlas.app.data import AtlasData, line_list
 from atlas.app.frames import Frame
 from atlas.app.state import DEFAULTS, PER_PAGE_MAX, URL_PARAMS, ViewState, parse_query, parse_search
@@ -26,7 +26,8 @@ from atlas.app.viewmodel import ViewModel
 from atlas.presentation import PALETTE
 from atlas.store import DamagedStar
 
-KEYS_HELP = ("Keys: ↓/→ next strip, ↑/← previous, PageDown/PageUp pages, Home/End. Drag to pan, box "
+KEYS_HELP = ("Keys: ↓/→ next strip, ↑/← previous, PageDown/PageUp pages, Home/End, F / Shift + F next / "
+             "previous found feature. Drag to pan, box "
              "tool or Ctrl + wheel to zoom; the reset tool shows the whole strip again. Marking with "
              "the mouse: Shift + drag across a strip adds a mark, drag a band to move it, click it and "
              "press Backspace to delete it.")
@@ -53,10 +54,12 @@ class Viewer:
         self.controls = controls.Controls(self.vm, lines, self.say, self.compare.choose)
         self.overview = overview.Overview(self.vm)
         self.card = card.Card(self.vm)
+        self.features = featurespanel.FeaturesPanel(self.vm)
         self.panels = (
             (strippanel.WATCHES, self.strips.update), (overview.WATCHES, self.overview.update),
             (comparepanel.WATCHES, self.compare.update), (markspanel.WATCHES, self.marks.update),
             (card.WATCHES, self.card.update), (controls.WATCHES, self.controls.update),
+            (featurespanel.WATCHES, self.features.update),
         )
         self.strips.ensure(state.per_page)
         zs = self.vm.zoom_strip()  # a link's zoom window wins over its page
@@ -79,7 +82,7 @@ class Viewer:
             nav, c.w_link, self.notice,
             pn.pane.Bokeh(self.strips.readout, sizing_mode="stretch_width", margin=(0, 4)),
             pn.pane.Bokeh(self.overview.fig, sizing_mode="stretch_width", margin=(0, 0, 4, 0)),
-            self.compare.box, self.strips.column, pn.pane.Bokeh(self.bridge, visible=False),
+            self.features.box, self.compare.box, self.strips.column, pn.pane.Bokeh(self.bridge, visible=False),
             sizing_mode="stretch_width", margin=(0, 8),
         )
         muted = PALETTE["muted"]
@@ -127,6 +130,8 @@ class Viewer:
             return
         if tags[0] == "url" and len(tags) > 1:
             self.restore_address(str(tags[1]))
+        elif str(tags[0]) in ("feature+", "feature-"):
+            self.features.step(1 if tags[0] == "feature+" else -1)
         else:
             self.controls.key(str(tags[0]))
 
