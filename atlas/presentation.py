@@ -46,6 +46,19 @@ def y_limits(y, normalised: bool, room_above: float = 0.04) -> tuple[float, floa
     return lo - 0.04 * span, hi + room_above * span
 
 
+#: The fixed flux axis of normalised flux.
+FIXED_NORMALISED = (0.0, 1.05)
+
+
+def flux_axis(y, normalised: bool, mode: str = "fit", room_above: float = 0.06) -> tuple[float, float]:
+    """The flux axis of a drawn strip: ``"fit"`` to the samples ``y`` it shows
+    (:func:`y_limits`), or ``"fixed"`` at 0 .. 1.05 for normalised flux (raw flux is
+    always fitted)."""
+    if mode == "fixed" and normalised:
+        return FIXED_NORMALISED
+    return y_limits(y, normalised, room_above)
+
+
 def _num(v) -> float | None:
     try:
         x = float(v)

@@ -40,6 +40,8 @@ FRAMES = ("observed", "barycentric", "rest")
 MEDIA = ("air", "vacuum")
 UNITS = ("A", "nm")
 FLUXES = ("normalized", "raw")
+#: The flux axis: fitted to what the strip shows, or fixed at 0 .. 1.05 (normalised flux).
+FLUX_AXES = ("fit", "fixed")
 
 #: Other spellings accepted for a choice (lower case) -> the one the view uses.
 ALIASES = {
@@ -259,6 +261,8 @@ PARAMS: dict[str, Param] = {p.name: p for p in (
     Param("unit", "A", lambda v, p, c: read_choice(v, UNITS, "unit"), "axis unit, A or nm"),
     Param("flux", "normalized", lambda v, p, c: read_choice(v, FLUXES, "flux"),
           "normalized or raw flux"),
+    Param("yaxis", "fit", lambda v, p, c: read_choice(v, FLUX_AXES, "yaxis"),
+          "flux axis: fit (to the strip or zoom window shown) or fixed (0 .. 1.05, normalised flux)"),
     Param("lines", [], lambda v, p, c: read_species(v), "species marked; empty = all"),
     Param("strength", 3, _bounded("strength", 1, 4), "weakest line strength class marked"),
     Param("ref", "", lambda v, p, c: read_ref(v), "reference line of the velocity readout"),
@@ -269,7 +273,7 @@ PARAMS: dict[str, Param] = {p.name: p for p in (
 
 #: The parameters of a view, in the order a link lists them.
 NAMES = ("star", "compare", "page", "per_page", "lo", "hi", "frame", "medium", "unit",
-         "flux", "lines", "strength", "ref", "marks", "feature")
+         "flux", "yaxis", "lines", "strength", "ref", "marks", "feature")
 assert set(NAMES) == set(PARAMS)
 
 

@@ -47,6 +47,9 @@ class Controls:
                                                                sizing_mode="stretch_width")
         self.w_unit = pn.widgets.RadioButtonGroup.from_param(st.param.unit, color="light",
                                                              sizing_mode="stretch_width")
+        self.w_yaxis = pn.widgets.RadioButtonGroup.from_param(
+            st.param.yaxis, color="light", sizing_mode="stretch_width",
+            description="fit: the flux axis follows what each strip shows; fixed: 0 to 1.05 (normalised flux)")
         self.w_flux = pn.widgets.RadioButtonGroup.from_param(st.param.flux, color="light",
                                                              sizing_mode="stretch_width")
         species = sorted(set(self._lines["species"])) if self._lines is not None else []

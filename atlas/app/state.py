@@ -42,6 +42,7 @@ from typing import Any
 import param
 
 from atlas.viewspec import (
+    FLUX_AXES,
     FLUXES,
     FRAMES,
     MAX_FEATURES,
@@ -86,6 +87,7 @@ class ViewState(param.Parameterized):
     medium = param.Selector(default=PARAMS["medium"].default, objects=list(MEDIA))
     unit = param.Selector(default=PARAMS["unit"].default, objects=list(UNITS))
     flux = param.Selector(default=PARAMS["flux"].default, objects=list(FLUXES))
+    yaxis = param.Selector(default=PARAMS["yaxis"].default, objects=list(FLUX_AXES), doc=_doc("yaxis"))
     page = param.Integer(default=1, bounds=(1, MAX_PAGE), doc=_doc("page"))
     per_page = param.Integer(default=PARAMS["per_page"].default, bounds=(1, PER_PAGE_MAX),
                              doc=_doc("per_page"))

@@ -31,11 +31,11 @@ from bokeh.plotting import figure
 from atlas.app import markers
 from atlas.app.frames import Frame, scale
 from atlas.app.scripts import READOUT_JS
-from atlas.presentation import PALETTE, y_limits
+from atlas.presentation import PALETTE, flux_axis
 
 DEFAULT_PX = 1100  # plot width assumed before the browser reports it
 #: The view parameters the strips show.
-WATCHES = ("star", "page", "per_page", "lo", "hi", "frame", "medium", "unit", "flux",
+WATCHES = ("star", "page", "per_page", "lo", "hi", "frame", "medium", "unit", "flux", "yaxis",
            "lines", "strength", "ref", "marks")
 
 
@@ -88,7 +88,9 @@ class Slot:
         fig.toolbar.logo = None
         # Ctrl + wheel zooms; the plain wheel keeps scrolling the page of strips.
         wheel = WheelZoomTool(dimensions="width", modifiers={"ctrl": True}, visible=False)
-        fig.add_tools(wheel)
+        # Shift + wheel, or the flux box tool, zooms the flux axis alone.
+        ywheel = WheelZoomTool(dimensions="height", modifiers={"shift": True}, visible=False)
+        fig.add_tools(wheel, ywheel)
         fig.toolbar.active_scroll = wheel
         fig.grid.grid_line_color = PALETTE["rule"]
         fig.xaxis.major_label_text_font_size = "10px"
@@ -102,7 +104,8 @@ class Slot:
         # toolbar: pan, mark, box zoom, reset (hover and Ctrl + wheel work without buttons)
         self.box_edit = BoxEditTool(renderers=[band], empty_value=-1, description="mark a range "
                                     "(Shift + drag adds; click and Backspace deletes)")
-        fig.add_tools(self.box_edit, BoxZoomTool(dimensions="width"), ResetTool())
+        fig.add_tools(self.box_edit, BoxZoomTool(dimensions="width"),
+                      BoxZoomTool(dimensions="height", description="zoom the flux axis"), ResetTool())
         self.pan = fig.select_one({"type": PanTool})
         fig.add_layout(LabelSet(x="x0", y=-4, y_units="screen", text="note", source=self.ksrc,
                                 text_font_size="10px", text_color=PALETTE["mark_text"], x_offset=3,
@@ -146,7 +149,6 @@ class StripsPanel:
         self.mark_mode = False
         self._placed_key = None
         self._placed = None
-        self._yrange: dict = {}
         self.meta = ColumnDataSource({"scale": [1.0], "ref_A": [0.0], "ref_name": [""],
                                       "frame": ["observed"]})
         self.readout = Div(text="move the cursor over a strip for wavelength, velocity and flux",
@@ -231,16 +233,6 @@ class StripsPanel:
                                                                     strict=True)
                 if s and np.isfinite(r) and np.isfinite(e)}
 
-    def _y_range(self, strip: int, flux: str):
-        key = (self.vm.state.star, strip, flux)
-        r = self._yrange.get(key)
-        if r is None:
-            lo_b, hi_b = self.vm.data.strip_bounds(self.vm.state.star)
-            w = self.vm.data.window(self.vm.state.star, strip, lo_b[strip], hi_b[strip], 1024, flux=flux)
-            r = y_limits(w["flux"], flux == "norm", room_above=0.06)
-            self._yrange[key] = r
-        return r
-
     def update(self):
         st = self.vm.state
         fr = self.vm.frame()
@@ -268,7 +260,7 @@ class StripsPanel:
             else:
                 lo, hi = s0, s1
             width = plot_width_px(slot.fig)
-            key = (st.star, strip, round(lo, 6), round(hi, 6), fr, st.unit, flux, width,
+            key = (st.star, strip, round(lo, 6), round(hi, 6), fr, st.unit, flux, st.yaxis, width,
                    tuple(st.lines), st.strength, ref_A, tuple(map(tuple, st.marks)), zs == strip)
             if key == slot.drawn:
                 continue
@@ -287,8 +279,8 @@ class StripsPanel:
         xr_.update(bounds=None)
         xr_.update(start=lo / sc, end=hi / sc, reset_start=s0 / sc, reset_end=s1 / sc,
                    bounds=(s0 / sc, s1 / sc))
-        y0, y1 = self._y_range(strip, flux)
-        slot.fig.y_range.update(start=y0, end=y1)
+        y0, y1 = flux_axis(w["flux"], flux == "norm", st.yaxis)
+        slot.fig.y_range.update(start=y0, end=y1, reset_start=y0, reset_end=y1)
         slot.fig.outline_line_color = PALETTE["mark"] if focused else None
         slot.fig.yaxis.axis_label = f"{strip + 1}"
         slot.fig.yaxis.axis_label_text_font_size = "10px"
@@ -304,7 +296,7 @@ class StripsPanel:
             sp = sub["species"].astype(str).tolist() if "species" in sub else [""] * len(sub)
             fd = {
                 "x": fx[inside] / sc,
-                "y": [self._y_range(strip, flux)[1] * 0.97] * len(sub),
+                "y": [y1 - 0.03 * (y1 - y0)] * len(sub),
                 "species": [s or "unidentified" for s in sp],
                 "rest": [f"{r:.3f} Å" if np.isfinite(r) else "—" for r in sub.get("rest_A", [np.nan] * len(sub))],
                 "ew": [f"{e:.1f} mÅ" if np.isfinite(e) else "not measured"

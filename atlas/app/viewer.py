@@ -97,7 +97,7 @@ class Viewer:
                          margin=(6, 10)),
             c.w_star, self.card.pane, c.w_compare, c.w_jump,
             label("Frame"), c.w_frame, label("Wavelengths in"), c.w_medium, c.w_unit,
-            label("Flux"), c.w_flux, c.w_lines, c.w_strength, c.w_per_page,
+            label("Flux"), c.w_flux, label("Flux axis (Shift + wheel zooms it)"), c.w_yaxis, c.w_lines, c.w_strength, c.w_per_page,
             *self.marks.widgets(),
             pn.pane.HTML(f'<div style="font-size:11px;color:{muted}">{KEYS_HELP}</div>', margin=(6, 10)),
             width=290, styles={"background": "#f3efe4", "border-right": f"1px solid {PALETTE['rule']}"},

@@ -97,7 +97,6 @@ def view_updates(atlas_dir, sid, n_updates, rng, width_px=1100, cold=False):
         p = int(rng.integers(1, n_pages + 1))
         if cold:
             lod.clear_cache()
-            v.strips._yrange.clear()
         t = time.perf_counter()
         state.param.update(page=p, lo=None, hi=None)
         page_ms.append((time.perf_counter() - t) * 1e3 / max(1, len(v.vm.page_strips())))
