@@ -20,7 +20,8 @@ PALETTE = {
     "spectrum": "#1f4e79",   # the star's flux
     "stellar": "#b0562c",    # a line of the star (line list)
     "telluric": "#6b8f71",   # a line of Earth's atmosphere
-    "mark": "#d9a400",       # a marked range, and the zoomed strip's outline
+    "mark": "#d9a400",       # a marked range
+    "focus": "#2b8a9e",      # the zoomed strip's outline, the zoom window on the overview
     "mark_text": "#6b4e00",  # a mark's note
     "feature_known": "#5b3f8c",        # a found feature some line explains
     "feature_unexplained": "#c0304a",  # a found feature nothing explains

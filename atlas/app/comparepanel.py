@@ -32,6 +32,7 @@ class ComparePanel:
         self.on_width = on_width
         self._key = None
         self._window = None
+        self.glyphs: set[str] = set()
         self.figs: list = []
         self.title = pn.pane.HTML("", margin=(6, 4, 0, 4), name="compare-title",
                                   styles={"font-size": "12.5px", "color": PALETTE["ink"]})
@@ -99,6 +100,7 @@ class ComparePanel:
             if self.box.visible:
                 self.box.visible = False
             self._key = None
+            self.glyphs = set()
             return
         win = self.vm.compare_window()
         if win is None:
@@ -131,6 +133,9 @@ class ComparePanel:
         here = [m for m in st.marks if m[1] >= lo and m[0] <= hi]
         self.marks_src.data = {"x0": [m[0] / sc for m in here], "x1": [m[1] / sc for m in here],
                            "note": [m[2] for m in here]}
+        dd_now = np.asarray(self.lines_src.data["dd"], dtype=float)
+        self.glyphs = ({"spectrum", "second", "difference"} | ({"grow"} if (dd_now > 0).any() else set())
+                       | ({"fade"} if (dd_now < 0).any() else set()) | ({"mark"} if here else set()))
         for f in self.figs:
             f.x_range.update(start=lo / sc, end=hi / sc)
         ys = np.concatenate([ya[np.isfinite(ya)], yb[np.isfinite(yb)]])

@@ -33,12 +33,13 @@ class Overview:
         fig.line("x", "y", source=self.src, line_color=PALETTE["overview"], line_width=1)
         self.page_box = BoxAnnotation(left=0, right=0, fill_color=PALETTE["spectrum"], fill_alpha=0.15,
                                       line_color=PALETTE["spectrum"], line_width=1)
-        self.zoom_box = BoxAnnotation(left=0, right=0, fill_color=PALETTE["mark"], fill_alpha=0.6,
+        self.zoom_box = BoxAnnotation(left=0, right=0, fill_color=PALETTE["focus"], fill_alpha=0.6,
                                       line_alpha=0)
         fig.add_layout(self.page_box)
         fig.add_layout(self.zoom_box)
         fig.on_event(Tap, self.on_tap)
         self.fig = fig
+        self.glyphs: set[str] = set()
 
     def on_tap(self, ev):
         if ev.x is None:
@@ -81,3 +82,4 @@ class Overview:
             self.zoom_box.update(left=(mid - span / 2) / sc, right=(mid + span / 2) / sc, visible=True)
         else:
             self.zoom_box.visible = False
+        self.glyphs = {"overview", "page"} | ({"focus"} if self.zoom_box.visible else set())

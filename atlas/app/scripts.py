@@ -56,8 +56,9 @@ if (m.ref_A[0] > 0) {
   const kms = C_KMS * (r * r - 1) / (r * r + 1);
   v = ' · v ' + (kms >= 0 ? '+' : '') + kms.toFixed(2) + ' km/s from ' + m.ref_name[0];
 }
-out.text = '<b>' + m.frame[0] + ' frame</b> · λ ' + air.toFixed(3) + ' Å air · ' +
-  vac.toFixed(3) + ' Å vacuum' + v + f;
+const u = sc == 1 ? 'Å' : 'nm', d = sc == 1 ? 3 : 4;
+out.text = '<b>' + m.frame[0] + ' frame</b> · λ ' + (air / sc).toFixed(d) + ' ' + u + ' air · ' +
+  (vac / sc).toFixed(d) + ' ' + u + ' vacuum' + v + f;
 """.replace("C_KMS", repr(C_KMS))
 
 KEYS_JS = """

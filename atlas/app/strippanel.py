@@ -20,6 +20,7 @@ from bokeh.models import (
     CustomJS,
     Div,
     HoverTool,
+    Label,
     LabelSet,
     PanTool,
     Range1d,
@@ -29,6 +30,7 @@ from bokeh.models import (
 from bokeh.plotting import figure
 
 from atlas.app import markers
+from atlas.app.featurespanel import is_unexplained
 from atlas.app.frames import Frame, scale
 from atlas.app.scripts import READOUT_JS
 from atlas.presentation import PALETTE, flux_axis
@@ -71,10 +73,14 @@ class Slot:
         z = np.zeros(0, np.float32)
         self.src = ColumnDataSource({"x": z, "y": z, "lo": z, "hi": z},
                                     name=f"spectrum-{index}")
-        self.msrc = ColumnDataSource(markers._empty() | {"colour": []}, name=f"markers-{index}")
-        self.fsrc = ColumnDataSource({"x": [], "y": [], "species": [], "rest": [], "ew": [], "colour": []})
+        self.msrc = ColumnDataSource(markers._empty() | {"colour": [], "air_u": [], "vac_u": [], "unit": []},
+                                     name=f"markers-{index}")
+        self.fsrc = ColumnDataSource({"x": [], "y": [], "species": [], "rest": [], "ew": [], "colour": []},
+                                     name=f"found-{index}")
         self.ksrc = ColumnDataSource({"x0": [], "x1": [], "note": [], "i": []}, name=f"marks-{index}")
         self.mark_idx: list[int] = []
+        self.level = 0
+        self.glyphs: set[str] = set()  # legend keys of what this strip draws
         self.drawn_marks: dict = {}  # what Python last wrote to ksrc (an edit differs from it)
         self.conv = ColumnDataSource({"d": [0.0, 1.0], "vac": [0.0, 1.0], "air": [0.0, 1.0]})
         fig = figure(
@@ -120,11 +126,15 @@ class Slot:
         ))
         fig.varea(x="x", y1="lo", y2="hi", source=self.src, fill_color=PALETTE["spectrum"], fill_alpha=0.85)
         fig.line("x", "y", source=self.src, line_color=PALETTE["spectrum"], line_width=1.1)
-        fr = fig.scatter("x", "y", source=self.fsrc, marker="inverted_triangle", size=7,
+        fr = fig.scatter("x", "y", source=self.fsrc, marker="diamond", size=9,
                          fill_color="colour", line_color=None)
+        self.number = Label(x=4, y=3, x_units="screen", y_units="screen", text="", text_font_size="10px",
+                            text_color=PALETTE["muted"], background_fill_color="white",
+                            background_fill_alpha=0.75)
+        fig.add_layout(self.number)
         fig.add_tools(HoverTool(renderers=[mr], tooltips=[
-            ("line", "@species"), ("rest air", "@air_A{0.000} Å"),
-            ("rest vacuum", "@vacuum_A{0.000} Å"), ("strength", "@strength"),
+            ("line", "@species"), ("rest air", "@air_u{0.0000} @unit"),
+            ("rest vacuum", "@vac_u{0.0000} @unit"), ("strength", "@strength"),
             ("EW", "@ew")], point_policy="follow_mouse", visible=False))
         fig.add_tools(HoverTool(renderers=[fr], tooltips=[
             ("feature", "@species"), ("rest vacuum", "@rest"), ("EW", "@ew")], visible=False))
@@ -135,6 +145,21 @@ class Slot:
         fig.on_event(Reset, lambda ev: panel.on_reset(self))
         fig.on_change("inner_width", lambda attr, old, new: panel.on_width())
         self.fig = fig
+
+
+def in_unit(m: dict, sc: float, medium: str) -> dict:
+    """Marker columns in the axis unit: x, the labels' rest wavelengths, and the hover's
+    ``air_u`` / ``vac_u`` with their ``unit``."""
+    air = np.asarray(m.get("air_A", []), dtype=np.float64) / sc
+    vac = np.asarray(m.get("vacuum_A", []), dtype=np.float64) / sc
+    m["x"] = np.asarray(m["x"], dtype=np.float64) / sc
+    if sc != 1.0:
+        rest = air if medium == "air" else vac
+        m["label"] = [f"{sp} {r:.3f}" if lab else "" for sp, r, lab in
+                      zip(m["species"], rest, m["label"], strict=True)]
+    m["air_u"], m["vac_u"] = air, vac
+    m["unit"] = ["Å" if sc == 1.0 else "nm"] * len(m["x"])
+    return m
 
 
 class StripsPanel:
@@ -155,6 +180,7 @@ class StripsPanel:
                            sizing_mode="stretch_width", name="readout",
                            styles={"font-size": "12.5px", "color": PALETTE["ink"]})
         self.slots: list[Slot] = []
+        self.glyphs: set[str] = set()
         self.column = pn.Column(sizing_mode="stretch_width")
 
     def set_mark_mode(self, on: bool):
@@ -266,6 +292,17 @@ class StripsPanel:
                 continue
             self.draw_slot(slot, strip, lo, hi, s0, s1, fr, sc, flux, width, placed, ew, feats, zs == strip)
             slot.drawn = key
+        shown = [s for s in self.slots if s.strip is not None]
+        unit = "Å" if st.unit == "A" else "nm"
+        for k, slot in enumerate(shown):
+            slot.fig.xaxis.axis_label = (f"λ ({unit}, {st.medium}, {st.frame} frame)"
+                                         if k == len(shown) - 1 else None)
+        self.glyphs = set().union(*(s.glyphs for s in shown)) if shown else set()
+
+    def raw_flux_words(self) -> str:
+        """The y words of raw flux: its unit from the star's record when known."""
+        u = self.vm.record().get("flux_unit")
+        return f"flux ({u})" if u else "flux (as recorded)"
 
     def draw_slot(self, slot, strip, lo, hi, s0, s1, fr, sc, flux, width, placed, ew, feats, focused):
         """Fill one strip figure: LOD data for [lo, hi] (displayed Å), markers, ranges."""
@@ -281,37 +318,48 @@ class StripsPanel:
                    bounds=(s0 / sc, s1 / sc))
         y0, y1 = flux_axis(w["flux"], flux == "norm", st.yaxis)
         slot.fig.y_range.update(start=y0, end=y1, reset_start=y0, reset_end=y1)
-        slot.fig.outline_line_color = PALETTE["mark"] if focused else None
-        slot.fig.yaxis.axis_label = f"{strip + 1}"
-        slot.fig.yaxis.axis_label_text_font_size = "10px"
+        slot.fig.outline_line_color = PALETTE["focus"] if focused else None
+        slot.number.text = f"strip {strip + 1}"
+        slot.fig.yaxis.axis_label = "normalised flux" if flux == "norm" else self.raw_flux_words()
+        slot.fig.yaxis.axis_label_text_font_size = "9px"
+        slot.fig.yaxis.axis_label_text_font_style = "normal"
         m = markers.visible(placed, lo, hi, st.lines, st.strength, st.medium, width, ew=ew)
-        m["x"] = np.asarray(m["x"], dtype=np.float64) / sc
+        m = in_unit(m, sc, st.medium)
         m["colour"] = [PALETTE["telluric"] if t else PALETTE["stellar"] for t in m["telluric"]]
         slot.msrc.data = m
+        slot.glyphs = {"envelope" if slot.level > 0 else "spectrum"}
+        slot.glyphs |= {"telluric" if t else "stellar" for t in m["telluric"]}
         fd = {"x": [], "y": [], "species": [], "rest": [], "ew": [], "colour": []}
         if feats is not None and "wavelength_A" in feats:
             fx = fr.to_display_A(feats["wavelength_A"].to_numpy(dtype=float))
             inside = (fx >= lo) & (fx <= hi)
             sub = feats[inside]
             sp = sub["species"].astype(str).tolist() if "species" in sub else [""] * len(sub)
+            un = is_unexplained(sp, sub["kind"] if "kind" in sub else [""] * len(sub))
+            unit = "Å" if sc == 1.0 else "nm"
             fd = {
                 "x": fx[inside] / sc,
                 "y": [y1 - 0.03 * (y1 - y0)] * len(sub),
-                "species": [s or "unidentified" for s in sp],
-                "rest": [f"{r:.3f} Å" if np.isfinite(r) else "—" for r in sub.get("rest_A", [np.nan] * len(sub))],
+                "species": ["unexplained" if u else s for s, u in zip(sp, un, strict=True)],
+                "rest": [f"{r / sc:.4f} {unit}" if np.isfinite(r) else "—"
+                         for r in sub.get("rest_A", [np.nan] * len(sub))],
                 "ew": [f"{e:.1f} mÅ" if np.isfinite(e) else "not measured"
                        for e in sub.get("ew_mA", [np.nan] * len(sub))],
-                "colour": [PALETTE["feature_known"] if s else PALETTE["feature_unexplained"] for s in sp],
+                "colour": [PALETTE["feature_unexplained"] if u else PALETTE["feature_known"] for u in un],
             }
+            slot.glyphs |= {"feature_unexplained" if u else "feature_known" for u in un}
         slot.fsrc.data = fd
         idx = [k for k, mk in enumerate(st.marks) if mk[1] >= lo and mk[0] <= hi]
         slot.mark_idx = idx
         slot.drawn_marks = {"x0": [st.marks[k][0] / sc for k in idx], "x1": [st.marks[k][1] / sc for k in idx],
                             "note": [st.marks[k][2] for k in idx], "i": [float(k) for k in idx]}
         slot.ksrc.data = dict(slot.drawn_marks)
+        if idx:
+            slot.glyphs.add("mark")
+        if focused:
+            slot.glyphs.add("focus")
         d = np.linspace(s0 - 1.0, s1 + 1.0, 33)
         vac = dataclasses.replace(fr, medium="vacuum").to_display_A(fr.from_display_A(d))
         air = dataclasses.replace(fr, medium="air").to_display_A(fr.from_display_A(d))
         slot.conv.data = {"d": d, "vac": vac, "air": air}
-        slot.fig.xaxis.axis_label = None
 

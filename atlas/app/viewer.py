@@ -18,7 +18,16 @@ import numpy as np
 import panel as pn
 from bokeh.models import Div
 
-from atlas.app import card, comparepanel, controls, featurespanel, markspanel, overview, strippanel
+from atlas.app import (
+    card,
+    comparepanel,
+    controls,
+    featurespanel,
+    legend,
+    markspanel,
+    overview,
+    strippanel,
+)
 from atlas.app.data import AtlasData, line_list
 from atlas.app.frames import Frame
 from atlas.app.state import DEFAULTS, PER_PAGE_MAX, URL_PARAMS, ViewState, parse_query, parse_search
@@ -55,6 +64,7 @@ class Viewer:
         self.overview = overview.Overview(self.vm)
         self.card = card.Card(self.vm)
         self.features = featurespanel.FeaturesPanel(self.vm)
+        self.legend = legend.Legend()
         self.panels = (
             (strippanel.WATCHES, self.strips.update), (overview.WATCHES, self.overview.update),
             (comparepanel.WATCHES, self.compare.update), (markspanel.WATCHES, self.marks.update),
@@ -81,6 +91,7 @@ class Viewer:
         main = pn.Column(
             nav, c.w_link, self.notice,
             pn.pane.Bokeh(self.strips.readout, sizing_mode="stretch_width", margin=(0, 4)),
+            self.legend.pane,
             pn.pane.Bokeh(self.overview.fig, sizing_mode="stretch_width", margin=(0, 0, 4, 0)),
             self.features.box, self.compare.box, self.strips.column, pn.pane.Bokeh(self.bridge, visible=False),
             sizing_mode="stretch_width", margin=(0, 8),
@@ -244,5 +255,6 @@ class Viewer:
                     if update == self.strips.update:
                         for slot in self.strips.slots:
                             slot.fig.visible = False
+            self.legend.show(self.strips.glyphs | self.overview.glyphs | self.compare.glyphs)
             self.refresh_notice()
         self._notices = []
