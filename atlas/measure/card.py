@@ -21,6 +21,9 @@ MEASUREMENT_KEYS = (
     "resolving_power",
     "colour_srgb",
     "rv_obs_kms",
+    "class_range",
+    "class_criteria",
+    "colour_basis",
 )
 
 
@@ -49,7 +52,13 @@ def star_measurements(ds, *, site=None, radec=None, time=None, extra: dict | Non
     - ``colour_srgb``: ``#rrggbb`` true colour (CIE 1931 2° observer, sRGB; colour-science).
     - ``rv_kms`` (barycentric), ``rv_obs_kms`` (observer's frame), ``rv_err_kms`` (of
       both), ``spectral_class``, ``teff_k``: :func:`atlas.measure.pipeline.measure_run`.
+    - ``class_range`` (e.g. ``"B4-B6"``, or ``"uncertain"``) and ``class_criteria`` (a list
+      of ``{"name", "value", "says"}``): the published criteria behind the class,
+      :mod:`atlas.measure.criteria`.
+    - ``colour_basis``: ``"calibrated"`` (flux density) or ``"instrument"`` (counts with the
+      instrument's throughput, and for echelle files the blaze, in them).
     """
+    from atlas.measure.classify import is_calibrated
     from atlas.measure.pipeline import measure_run
     from atlas.measure.sampling import implied_resolving_power, median_sampling_kms
     from atlas.measure.snr import der_snr
@@ -82,6 +91,8 @@ def star_measurements(ds, *, site=None, radec=None, time=None, extra: dict | Non
             notes.append(f"radial velocity {m.rv.rv_obs_kms:+.3f} km/s in the observer's frame only")
     if m.spectral_class is not None:
         values["spectral_class"] = m.spectral_class.spectral_class
+        values["class_range"] = m.spectral_class.class_range
+        values["class_criteria"] = m.spectral_class.class_criteria
     values["teff_k"] = finite_or_none(m.teff_k)
     if extra is not None:
         extra["measurement"] = m
@@ -122,6 +133,8 @@ def star_measurements(ds, *, site=None, radec=None, time=None, extra: dict | Non
     if np.count_nonzero(good) >= 2:
         w, f = _block_means(cw[good], cf[good], COLOUR_POINTS)
         values["colour_srgb"] = hex_of(srgb_of_spectrum(w, f))
+        # the flux the colour comes from: calibrated, or counts through the instrument
+        values["colour_basis"] = "calibrated" if is_calibrated(ds) else "instrument"
     return values, notes
 
 

@@ -42,6 +42,10 @@ class ClassResult:
     best_template: str | None
     runner_up: str | None
     note: str = ""
+    #: the range the criteria and the template fit allow ("B3-B7"), or "uncertain"
+    class_range: str | None = None
+    #: the criteria behind it: [{"name", "value", "says"}] (atlas.measure.criteria)
+    class_criteria: list | None = None
 
     def as_dict(self) -> dict:
         return asdict(self)
@@ -227,9 +231,24 @@ def classify(wave_A, flux, uncertainty=None, mask=None, *, rv_obs_kms: float = 0
     dof = max(rw.size - 2, 1)
     scale = max(chi2[k] / dof, 1.0)
     like = np.exp(-(chi2 - chi2[k]) / (2 * scale))
-    label = class_name(best_num)
     # templates within 5 subclasses of the estimate (its grid neighbours) share the credit
     near = np.array([abs(class_number(n) - best_num) <= 5.0 for n in names])
     conf = float(like[near].sum() / like.sum())
     second = names[int(np.argsort(chi2)[1])] if len(names) > 1 else None
-    return ClassResult(label, conf, float(best_teff), names[k], second)
+    # published criteria (line ratios, band depths) calibrated on our class sequence, with
+    # the template fit as one more term: atlas.measure.criteria
+    from atlas.measure import criteria as cr
+    from atlas.synth.templates import subclass_teff_k
+
+    half = round(max(1.0, 1.2 * 4500.0 / r_cmp), 1)
+    # normalised again at the compared resolution, as the calibration sequence is
+    renorm = normalise(rw, fn)
+    vals, errs = cr.measure(rw, fn / renorm, sn / renorm, half_A=half)
+    comb = cr.combine(vals, errs, cr.calibration(grid, r_cmp, half), best_num)
+    if comb.number is None:
+        return ClassResult(None, None, None, names[k], second, note=comb.note,
+                           class_range=comb.class_range, class_criteria=comb.criteria)
+    if abs(comb.number - best_num) >= 0.5:
+        best_num, best_teff = comb.number, subclass_teff_k(comb.number)
+    return ClassResult(class_name(best_num), conf, float(best_teff), names[k], second,
+                       class_range=comb.class_range, class_criteria=comb.criteria)

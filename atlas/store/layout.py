@@ -28,6 +28,7 @@ RECORD_KEYS = (
     "medium", "samples", "strips",
     "barycentric_kms", "rv_kms", "rv_err_kms", "teff_k", "spectral_class", "snr",
     "resolving_power", "colour_srgb", "rv_obs_kms", "store_sha256", "source_path",
+    "class_range", "class_criteria", "colour_basis",
 )
 #: Record keys that hold a number or null.
 NUMBER_KEYS = ("barycentric_kms", "rv_kms", "rv_err_kms", "rv_obs_kms", "teff_k", "snr",
@@ -66,6 +67,9 @@ class StarRecord:
     rv_obs_kms: float | None = None
     store_sha256: str | None = None
     source_path: str | None = None
+    class_range: str | None = None
+    class_criteria: list | None = None
+    colour_basis: str | None = None
 
     @classmethod
     def from_dict(cls, d: dict) -> StarRecord:

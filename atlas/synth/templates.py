@@ -52,6 +52,26 @@ CLASS_TEFF_K: dict[str, float] = {
 
 CLASSES = tuple(CLASS_TEFF_K)
 
+#: More dwarf subclasses for the classification criteria's calibration sequence
+#: (:mod:`atlas.measure.criteria`): Pecaut & Mamajek (2013), Mamajek's table version
+#: 2022.04.16, typed **from memory** (less sure than ``CLASS_TEFF_K``).
+SUBCLASS_TEFF_K: dict[str, float] = {
+    "B1": 26000.0, "B2": 20600.0, "B3": 17000.0, "B7": 14000.0, "B8": 12500.0, "B9": 10700.0,
+    "A2": 8840.0, "F2": 6810.0, "G2": 5770.0, "K2": 5040.0, "M1": 3660.0, "M2": 3560.0, "M4": 3210.0,
+}
+
+
+def subclass_teff_k(number: float) -> float:
+    """Teff (K) of a dwarf of subclass ``number`` (O0 = 0 .. M9 = 69, see
+    ``atlas.measure.classify.class_number``): linear in log Teff between the classes of
+    ``CLASS_TEFF_K`` and ``SUBCLASS_TEFF_K`` (clamped at O5 and M5)."""
+    letters = "OBAFGKM"
+    known = {**CLASS_TEFF_K, **SUBCLASS_TEFF_K}
+    pts = sorted((letters.index(k[0]) * 10 + float(k[1:]), v) for k, v in known.items())
+    x = np.array([p[0] for p in pts])
+    y = np.log([p[1] for p in pts])
+    return float(np.exp(np.interp(float(number), x, y)))
+
 
 def template_grid(
     wave_A,

@@ -24,6 +24,7 @@ DESIGN_RECORD_KEYS = {  # ../shared/DESIGN.md, "Atlas on disk"
     "medium", "samples", "strips", "barycentric_kms", "rv_kms", "rv_err_kms", "teff_k",
     "spectral_class", "snr", "resolving_power", "colour_srgb",
     "rv_obs_kms", "store_sha256", "source_path",  # extensions: DEVELOPERS.md "Atlas on disk"
+    "class_range", "class_criteria", "colour_basis",
 }
 
 
