@@ -47,13 +47,13 @@ class BlazeSettings:
         Balmer line's wings so the line cannot pull it down.
     u_intervals [12]: knot intervals of the blaze along an order.
     orders_per_knot [6]: orders per knot interval of the blaze across orders.
-    penalty [1e-5]: second-difference penalty relative to the mean data weight.
+    penalty [1e-4]: second-difference penalty relative to the mean data weight.
     """
 
     star_knot_kms: float = 25000.0
     u_intervals: int = 12
     orders_per_knot: float = 6.0
-    penalty: float = 1e-5
+    penalty: float = 1e-4
 
 
 #: The clipping scatter is at least this (ln flux at an order's peak): noise-free or
