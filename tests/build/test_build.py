@@ -124,8 +124,9 @@ def test_echelle_orders_stay_strips_unless_merged():
     assert plan.mode == "orders" and plan.n_strips == 4
     root, _ = star_arrays(seq, plan)
     assert np.all(np.diff(root["strip_min_A"].values) > 0)  # orders in wavelength order
-    # the orders' continua are fitted jointly with a small penalty (atlas.blaze): 1e-4 on flat orders
-    np.testing.assert_allclose(root["norm_flux"].values, 1.0, rtol=1e-4)
+    # the orders' continua are fitted jointly with a small penalty (atlas.blaze): levels 1..4 in
+    # neighbouring orders are followed to 5e-4
+    np.testing.assert_allclose(root["norm_flux"].values, 1.0, rtol=1e-3)
     seq, plan, _ = prepare(spec, BuildOptions(merge_orders=True))
     assert plan.mode == "velocity" and np.all(np.diff(seq["wavelength"]) >= 0)
 
