@@ -6,9 +6,11 @@ goes through the same reader as a link (:func:`atlas.app.state.parse_marks`).
 
 from __future__ import annotations
 
+import html
 import math
 from typing import TYPE_CHECKING
 
+import numpy as np
 import panel as pn
 
 from atlas.app import markers
@@ -19,7 +21,7 @@ if TYPE_CHECKING:
     from atlas.app.strippanel import Slot
 
 #: The view parameters the marks panel shows.
-WATCHES = ("marks", "unit")
+WATCHES = ("star", "marks", "unit", "frame", "medium", "ref")
 
 
 class MarksPanel:
@@ -37,7 +39,7 @@ class MarksPanel:
         self.w_mode.param.watch(lambda e: self.strips.set_mark_mode(e.new), "value")
         self.w_pick = pn.widgets.Select(label="Marks", options={"(no marks)": -1}, value=-1,
                                              sizing_mode="stretch_width")
-        self.w_pick.param.watch(lambda e: self._show_note(), "value")
+        self.w_pick.param.watch(lambda e: (self._show_note(), self.show_measured()), "value")
         self.w_note = pn.widgets.TextInput(label="Note of the chosen mark", max_length=80,
                                                 sizing_mode="stretch_width")
         self.w_save = pn.widgets.Button(label="save note", width=90, margin=(4, 4))
@@ -45,8 +47,30 @@ class MarksPanel:
         self.w_save.on_click(lambda e: self.edit(self.w_pick.value, note=self.w_note.value))
         self.w_del.on_click(lambda e: self.delete(self.w_pick.value))
 
+        self.result = pn.pane.HTML("", sizing_mode="stretch_width", margin=(0, 10), name="mark-measured",
+                                   styles={"font-size": "12px"})
+        self.measured: dict | None = None  # the chosen mark's measurements (atlas.measure.marks)
+
     def widgets(self) -> list:
-        return [self.w_add, self.w_mode, self.w_pick, self.w_note, pn.Row(self.w_save, self.w_del)]
+        return [self.w_add, self.w_mode, self.w_pick, self.result, self.w_note,
+                pn.Row(self.w_save, self.w_del)]
+
+    def measure(self, k: int) -> dict | None:
+        """Measure mark ``k`` on the star's stored samples (None with a notice if it cannot be)."""
+        from atlas.errors import InputError
+        from atlas.measure.marks import measure_mark
+
+        st, vm = self.vm.state, self.vm
+        a, b, _ = st.marks[k]
+        fr = vm.frame()
+        lo, hi = (float(v) for v in fr.from_display_A(np.array([a, b])))
+        ref_A, _ = self.strips._ref()
+        try:
+            return measure_mark(vm.data.atlas, st.star, lo, hi, to_display=fr.to_display_A,
+                                ref_A=ref_A or None)
+        except InputError as exc:
+            self._note(f"mark {k + 1}: {exc.reason}", redraw=False)
+            return None
 
     def add_text(self, text: str):
         """Add a typed mark such as ``6550-6575 Hα wing`` (axis unit unless one is given)."""
@@ -150,4 +174,19 @@ class MarksPanel:
         vals = list(opts.values())
         self.w_pick.value = cur if cur in vals else vals[-1]
         self._show_note()
+        self.show_measured()
+
+    def show_measured(self):
+        """The chosen mark's EW ± error, depth, centroid, FWHM and velocity, under the list."""
+        from atlas.measure.marks import mark_words
+
+        st = self.vm.state
+        k = self.w_pick.value
+        if k is None or not (0 <= int(k) < len(st.marks)):
+            self.measured, self.result.object = None, ""
+            return
+        self.measured = self.measure(int(k))
+        words = mark_words(self.measured, st.unit) if self.measured else "cannot be measured here"
+        ref = f" (v against {st.ref})" if st.ref and self.measured and self.measured["v_kms"] is not None else ""
+        self.result.object = f"mark {int(k) + 1}: {html.escape(words)}{html.escape(ref)}"
 

@@ -45,6 +45,7 @@ from atlas.export.gather import (
     _window,
     line_markers,
     mark_bands,
+    mark_measurements,
     page_text,
     plan_pieces,
     strip_data,
@@ -101,6 +102,7 @@ def prepare(atlas_path, view: ExportView, *, html_page: int | None = None,
     data_hi = min(max(p.hi_A for p in pieces), extent[1] or math.inf)
     lo_d, hi_d = (float(v) for v in fmap.to_display([data_lo, data_hi]))
     text = page_text(view, star, fmap, lo_d, hi_d)
+    text = replace(text, notes=text.notes + mark_measurements(view, star, fmap))
     return Prepared(view, star, fmap, pieces, markers, mark_bands(view, fmap), text)
 
 
@@ -165,7 +167,7 @@ def export_html(atlas_path, star_id: str | None = None, out=None, *, view: Mappi
     text = prep.text
     if v.lo is None:
         text = replace(text, notes=(f"page {v.page}: strips {prep.pieces[0].label}–"
-                                    f"{prep.pieces[-1].label}",))
+                                    f"{prep.pieces[-1].label}",) + text.notes)
     html = htmlmod.render_html(strips, text, prep.markers, prep.marks,
                                normalized=v.flux == "normalized")
     with _Atomic(path) as tmp:

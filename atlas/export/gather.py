@@ -225,6 +225,31 @@ def mark_bands(view: ExportView, fmap: FrameMap) -> list[MarkBand]:
     return [MarkBand(a / fmap.scale, b / fmap.scale, note) for a, b, note in view.marks]
 
 
+#: Marks measured on an exported page (the rest are named as a count).
+MEASURED_MARKS = 3
+
+
+def mark_measurements(view: ExportView, star: _Star, fmap: FrameMap) -> tuple[str, ...]:
+    """One line per mark (at most MEASURED_MARKS): its range and ``atlas.measure.marks``'s
+    EW ± error, depth, centroid and FWHM (in the view's unit)."""
+    from atlas.measure.marks import mark_words, measure_mark
+
+    unit = "nm" if fmap.unit == "nm" else "Å"
+    out = []
+    for k, (a, b, note) in enumerate(view.marks[:MEASURED_MARKS]):
+        lo, hi = (float(v) for v in fmap.from_display_A(np.array([a, b])))
+        try:
+            m = measure_mark(star.atlas, view.star, lo, hi, to_display=fmap.to_display_A)
+            words = mark_words(m, fmap.unit)
+        except InputError as exc:
+            words = f"not measured ({exc.reason})"
+        label = f" ({note})" if note else ""
+        out.append(f"mark {k + 1}{label}, {a / fmap.scale:.4f}–{b / fmap.scale:.4f} {unit}: {words}")
+    if len(view.marks) > MEASURED_MARKS:
+        out.append(f"{len(view.marks) - MEASURED_MARKS} more mark(s) not measured here")
+    return tuple(out)
+
+
 def page_text(view: ExportView, star: _Star, fmap: FrameMap, lo_disp: float, hi_disp: float,
               n_markers_note: str | None = None) -> PageText:
     """The header, axis words and footer for every page of one export."""

@@ -35,6 +35,8 @@ class EWResult:
     centre_A: float
     cayrel_err_mA: float | None
     continuum: str  # "given" or "linear fit to flanks"
+    centroid_A: float | None = None  # first moment of 1 - F/C over the range
+    fwhm_A: float | None = None  # width where 1 - F/C is at least half the depth
 
     def as_dict(self) -> dict:
         return asdict(self)
@@ -156,9 +158,10 @@ def equivalent_width(
     depth_err = None if sx is None else float(sx[i] / cx[i])
     # FWHM from the depth profile, for Cayrel's estimate
     cayrel = None
-    if sx is not None and depth > 0 and x.size > 3:
-        half = (1.0 - r) >= depth / 2
-        fwhm = float(np.sum(tw[half]))
+    fwhm = float(np.sum(tw[(1.0 - r) >= depth / 2])) if depth > 0 and x.size > 3 else None
+    a = tw * (1.0 - r)
+    centroid = float(np.sum(a * x) / np.sum(a)) if np.sum(a) > 0 else None
+    if sx is not None and fwhm is not None:
         dxm = float(np.median(np.diff(x)))
         snr = float(np.median(cx / sx))
         if snr > 0 and fwhm > 0:
@@ -173,4 +176,6 @@ def equivalent_width(
         centre_A=float(x[i]),
         cayrel_err_mA=cayrel,
         continuum=how,
+        centroid_A=centroid,
+        fwhm_A=fwhm,
     )
