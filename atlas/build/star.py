@@ -233,32 +233,21 @@ def _content_key(sha: str, options: BuildOptions, path: str) -> str:
     return hashlib.sha256(blob.encode()).hexdigest()
 
 
-#: Rest wavelengths kept around a star's observed range: +-600 km/s of radial velocity.
-_RV_MARGIN = 0.002
-
-
-def predicted_lines(measurements: dict, line_fwhm_kms, wmin_A: float, wmax_A: float):
-    """The ``lines`` group for a star (``atlas.lines.predict`` at its measured Teff and
-    the log g of its luminosity class) or None, and notes saying why not."""
-    from atlas.lines.dense import load_merged_lines
-    from atlas.lines.predict import logg_of_class, predict_depths
+def predicted_lines(m):
+    """The ``lines`` group for a star: the lines its measurement predicted
+    (:class:`atlas.measure.pipeline.StarMeasurement`, ``atlas.lines.predict`` at its
+    measured Teff, the log g of its luminosity class and its line width) deeper than
+    ``DEPTH_THRESHOLD``, or None when none were predicted (the measurement's notes say why)."""
+    from atlas.lines.predict import DEPTH_THRESHOLD
     from atlas.lines.stored import to_dataset
 
-    teff = measurements.get("teff_k")
-    if teff is None or not np.isfinite(teff):
-        return None, ["no predicted lines: no Teff was measured"]
-    cls = measurements.get("spectral_class")
-    logg = logg_of_class(cls) if cls else None
-    width = line_fwhm_kms if line_fwhm_kms is not None and np.isfinite(line_fwhm_kms) else None
-    lines = load_merged_lines()
-    rest = lines["vacuum_A"].to_numpy()
-    lines = lines[(rest > wmin_A * (1 - _RV_MARGIN)) & (rest < wmax_A * (1 + _RV_MARGIN))]
-    try:
-        pred = predict_depths(lines, float(teff), logg, line_fwhm_kms=width)
-    except InputError as exc:
-        return None, [f"no predicted lines: {exc}"]
-    ds = to_dataset(pred, teff_k=float(teff), logg=logg, spectral_class=cls, line_fwhm_kms=width)
-    return ds, list(pred.attrs.get("notes", []))
+    if m is None or m.predicted_lines is None:
+        return None
+    pred = m.predicted_lines
+    pred = pred[pred["predicted_depth"].to_numpy() > DEPTH_THRESHOLD]
+    cls = None if m.spectral_class is None else m.spectral_class.spectral_class
+    return to_dataset(pred, teff_k=float(m.teff_k), logg=m.logg, spectral_class=cls,
+                      line_fwhm_kms=m.line_fwhm_kms)
 
 
 def build_star(path: str, options: BuildOptions, atlas_url: str, sha: str, in_use: frozenset) -> dict:
@@ -315,8 +304,7 @@ def build_star(path: str, options: BuildOptions, atlas_url: str, sha: str, in_us
                                              time=options.time, extra=extra,
                                              rv_source=ds if is_echelle(ds) else None)
     notes += mnotes
-    lines_ds, lnotes = predicted_lines(measurements, extra.get("line_fwhm_kms"), wmin, wmax)
-    notes += lnotes
+    lines_ds = predicted_lines(extra.get("measurement"))
     if lines_ds is not None:
         store.write_lines(atlas_url, sname, lines_ds)
     if extra.get("features") is not None:

@@ -45,7 +45,9 @@ class StarMeasurement:
     teff_method: str | None = None
     line_fwhm_kms: float | None = None  # the width the features were searched with
     features: pd.DataFrame | None = None
-    predicted: pd.DataFrame | None = None  # lines predicted for this star (atlas.lines.predict)
+    predicted: pd.DataFrame | None = None  # lines predicted for this star, components joined
+    predicted_lines: pd.DataFrame | None = None  # atlas.lines.predict rows as predicted (deeper than 0.002)
+    logg: float | None = None  # the log g the prediction used (None = a dwarf)
     band_depth: tuple | None = None  # (rest_A, depth) of its molecular bands
     notes: list[str] = field(default_factory=list)
     normalised: xr.Dataset | None = None  # the (possibly binned) normalised run
@@ -205,15 +207,17 @@ def predict_for(m: StarMeasurement, nds: xr.Dataset, notes: list[str]) -> pd.Dat
     merged = load_merged_lines()
     rest = merged["vacuum_A"].to_numpy()
     lines = merged[(rest > w[0] * (1 - RV_MARGIN)) & (rest < w[-1] * (1 + RV_MARGIN))]
+    m.logg = logg_of_class(cls) if cls else None
     try:
-        pred = predict_depths(lines, float(m.teff_k), logg_of_class(cls) if cls else None,
-                              line_fwhm_kms=m.line_fwhm_kms, threshold=IDENTIFY_THRESHOLD)
+        pred = predict_depths(lines, float(m.teff_k), m.logg, line_fwhm_kms=m.line_fwhm_kms,
+                              threshold=IDENTIFY_THRESHOLD)
     except InputError as exc:
         notes.append(f"no predicted lines: {exc}")
         return None
     notes.extend(pred.attrs.get("notes", []))
+    m.predicted_lines = pred
     heads = merged[merged["kind"].astype(str) == "band_head"]  # bands reach far from their heads
-    m.band_depth = predicted_band_depth(heads, float(m.teff_k), logg_of_class(cls) if cls else None,
+    m.band_depth = predicted_band_depth(heads, float(m.teff_k), m.logg,
                                         w[0] * (1 - RV_MARGIN), w[-1] * (1 + RV_MARGIN))
     return collapse_components(pred)
 
