@@ -80,7 +80,9 @@ def measure_spectrum(ds, lines=None, *, calibrated: bool | None = None, site=Non
     c = m.spectral_class
     out.update(spectral_class=None if c is None else c.spectral_class,
                class_confidence=None if c is None else finite_or_none(c.class_confidence),
-               class_runner_up=None if c is None else c.runner_up)
+               class_runner_up=None if c is None else c.runner_up,
+               class_range=None if c is None else c.class_range,
+               class_criteria=None if c is None else c.class_criteria)
     out.update(teff_k=finite_or_none(m.teff_k), teff_err_k=finite_or_none(m.teff_err_k),
                teff_method=m.teff_method)
     if with_lines and m.features is not None:
