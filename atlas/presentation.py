@@ -100,6 +100,26 @@ def record_rows(rec: Mapping) -> list[tuple[str, str | None]]:
     ]
 
 
+def observation_rows(rec: Mapping, attrs: Mapping, strip_kms: float | None) -> list[tuple[str, str | None]]:
+    """More rows of a star's card: when and where it was observed and how it was measured
+    (``attrs`` are the star's Spectrum attributes as stored; text None = not recorded)."""
+    lat, lon, h = (_num(attrs.get(k)) for k in ("site_lat_deg", "site_lon_deg", "site_height_m"))
+    site = None
+    if lat is not None and lon is not None:
+        site = f"{lat:+.4f}°, {lon:+.4f}°" + (f", {h:.0f} m" if h is not None else "")
+    vsini = _num(rec.get("vsini_kms", attrs.get("vsini_kms")))
+    method = rec.get("rv_method") or attrs.get("rv_method")
+    return [
+        ("observed (UTC)", str(attrs["obs_time_utc"]) if attrs.get("obs_time_utc") else None),
+        ("site", site),
+        ("exposure", _fmt(attrs.get("exposure_s"), ".0f", " s")),
+        ("v sin i", None if vsini is None else f"{vsini:.0f} km/s"),
+        ("RV method", str(method) if method else None),
+        ("class range", str(rec["class_range"]) if rec.get("class_range") else None),
+        ("strip width", None if strip_kms is None else f"{strip_kms:,.0f} km/s"),
+    ]
+
+
 def header_measurements(rec: Mapping, rv_kms: float | None, bary_kms: float | None) -> str:
     """One line of a star's measurements for a printed or exported page."""
     meas = []

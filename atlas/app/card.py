@@ -8,7 +8,7 @@ import math
 import panel as pn
 
 from atlas.app.scripts import CSS
-from atlas.presentation import record_rows
+from atlas.presentation import observation_rows, record_rows
 
 #: The view parameters the card shows.
 WATCHES = ("star", "frame")
@@ -32,7 +32,7 @@ def swatch_css(colour) -> str | None:
     return None
 
 
-def star_card_html(rec: dict, frame_note: str = "") -> str:
+def star_card_html(rec: dict, frame_note: str = "", more: list | None = None) -> str:
     """The star card: name, class, Teff, RV, barycentric correction, S/N, R, colour, file."""
     colour = swatch_css(rec.get("colour_srgb"))
     sw = (f'<span class="striae-swatch" style="background:{colour}"></span> {colour}'
@@ -46,6 +46,8 @@ def star_card_html(rec: dict, frame_note: str = "") -> str:
                      ('<span class="na">unknown</span>' if label == "source file" else na)))
         if label == "resolving power":
             rows.append(("true colour", sw))
+    for label, text in more or []:
+        rows.append((label, html.escape(text) if text is not None else '<span class="na">not recorded</span>'))
     body = "".join(f"<tr><td>{k}</td><td>{v}</td></tr>" for k, v in rows)
     note = f'<p style="color:#8a5a00;font-size:12px">{html.escape(frame_note)}</p>' if frame_note else ""
     return f'<div class="striae-card"><table>{body}</table>{note}</div>'
@@ -59,4 +61,10 @@ class Card:
         self.pane = pn.pane.HTML("", sizing_mode="stretch_width", stylesheets=[CSS])
 
     def update(self):
-        self.pane.object = star_card_html(self.vm.record(), self.vm.frame_fallback())
+        rec = self.vm.record()
+        try:
+            attrs = dict(self.vm.data.atlas.star(self.vm.state.star).attrs)
+        except Exception:  # a damaged store: the card still shows the catalog's record
+            attrs = {}
+        more = observation_rows(rec, attrs, self.vm.strip_width_kms())
+        self.pane.object = star_card_html(rec, self.vm.frame_fallback(), more)

@@ -14,6 +14,7 @@ import panel as pn
 
 from atlas.app import markers
 from atlas.app.scripts import COPY_JS
+from atlas.app.targets import common_target
 from atlas.physics.constants import C_KMS
 from atlas.presentation import PALETTE
 
@@ -38,7 +39,7 @@ class Controls:
                                            value=st.compare or "", sizing_mode="stretch_width")
         self.w_compare.param.watch(lambda e: self.choose_compare(e.new), "value")
         self.w_jump = pn.widgets.TextInput(label="Go to (wavelength or line)",
-                                           placeholder="6563 · 656.3 nm · Na I 5890 · H I",
+                                           placeholder="6563 · 656.3 nm · Na I 5890 · Hα · Mg b · G band",
                                            sizing_mode="stretch_width")
         self.w_jump.param.watch(lambda e: self.go_to(e.new), "value")
         self.w_frame = pn.widgets.RadioButtonGroup.from_param(st.param.frame,
@@ -142,6 +143,10 @@ class Controls:
         if not text or not text.strip():
             return
         st = self.vm.state
+        named = common_target(text)
+        half_kms = JUMP_KMS
+        if named is not None:
+            text, half_kms = named[0], named[1] or JUMP_KMS
         try:
             species, w, unit = markers.parse_target(text)
         except ValueError as exc:
@@ -167,7 +172,7 @@ class Controls:
         if strip is None:
             self._note(f"go to: {target:.2f} Å ({st.medium}, {st.frame} frame) is outside this spectrum")
             return
-        half = target * JUMP_KMS / C_KMS
+        half = target * half_kms / C_KMS
         s0, s1 = self.vm.strip_display_range(strip, fr)
         st.param.update(page=strip // st.per_page + 1, lo=max(s0, target - half),
                         hi=min(s1, target + half), ref=ref)

@@ -65,6 +65,15 @@ class ViewModel(param.Parameterized):
         d = (fr or self.frame()).to_display_A(np.array([lo[strip], hi[strip]]))
         return float(d[0]), float(d[1])
 
+    @param.depends("state.star")
+    def strip_width_kms(self) -> float | None:
+        """The strips' velocity width (median over the star's strips), km/s."""
+        from atlas.physics.constants import C_KMS
+
+        lo, hi = (np.asarray(a, dtype=np.float64) for a in self.data.strip_bounds(self.state.star))
+        ok = np.isfinite(lo) & np.isfinite(hi) & (lo > 0) & (hi > lo)
+        return float(C_KMS * np.median(np.log(hi[ok] / lo[ok]))) if ok.any() else None
+
     def compare_window(self) -> tuple[float, float] | None:
         """The stretch compared (displayed Å): the zoom window, else the page's first strip."""
         st = self.state

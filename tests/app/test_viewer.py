@@ -140,3 +140,33 @@ def test_a_value_set_behind_the_parsers_back_is_put_back(viewer):
     viewer.state.page = 999
     assert viewer.state.page == viewer.vm.n_pages()
     assert viewer.notice.visible
+
+
+@pytest.mark.parametrize("name,rest_air_A", [("Na D", 5889.95), ("na d1", 5895.92), ("NaD2", 5889.95)])
+def test_go_to_reads_common_names_of_lines(make_viewer, name, rest_air_A):
+    # the names resolve to lines of the shipped line list (Na I D2/D1 air wavelengths, from memory)
+    viewer = make_viewer(star="test-star-a")
+    viewer.controls.go_to(name)
+    assert viewer.state.ref.startswith("Na I ")
+    assert float(viewer.state.ref.split()[-1]) == pytest.approx(rest_air_A, abs=0.05)
+
+
+def test_go_to_a_named_line_outside_the_spectrum_says_so(make_viewer):
+    viewer = make_viewer(star="test-star-a")  # 5000 .. 6108 Å: H-alpha lies beyond it
+    viewer.controls.go_to("Hα")
+    assert "outside this spectrum" in viewer.notice.object
+
+
+def test_go_to_a_band_opens_a_window_wide_enough_to_hold_it(make_viewer):
+    viewer = make_viewer(star="test-star-a")
+    viewer.controls.go_to("Mg b")
+    # Mg I b lines at 5167.3, 5172.7, 5183.6 Å air (from memory): the window holds all three
+    assert viewer.state.lo < 5167.3 and viewer.state.hi > 5183.6
+
+
+def test_the_card_says_when_and_how_it_was_observed(viewer):
+    html = viewer.card.pane.object
+    for words in ("observed (UTC)", "site", "exposure", "v sin i", "RV method", "class range",
+                  "strip width"):
+        assert words in html
+    assert "km/s" in html.split("strip width")[1][:80]
