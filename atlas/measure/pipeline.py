@@ -155,6 +155,9 @@ def measure_run(seq: dict, attrs: dict, lines=None, *, site=None, radec=None, ti
     else:
         if m.spectral_class.note:
             m.notes.append(m.spectral_class.note)
+    if m.spectral_class is not None:
+        m.rv = _refined(m, rv_source if rv_source is not None else nds, lines, rv_source is None)
+        rv_obs = m.rv_obs_kms if m.rv is not None else 0.0
     if calibrated is None:
         calibrated = is_calibrated(raw)
     if calibrated:
@@ -179,6 +182,21 @@ def measure_run(seq: dict, attrs: dict, lines=None, *, site=None, radec=None, ti
         except (ValueError, RuntimeError, np.linalg.LinAlgError) as exc:
             m.notes.append(f"no features: {exc}")
     return m
+
+
+def _refined(m: StarMeasurement, ds, lines, flat: bool):
+    """:func:`atlas.measure.velocity.refine_with_class` of the first velocity, its note kept."""
+    from atlas.measure.velocity import refine_with_class
+
+    try:
+        r = refine_with_class(ds, m.rv, m.spectral_class.class_teff_k, lines,
+                              continuum=np.ones(ds.sizes["sample"]) if flat else None)
+    except (ValueError, RuntimeError, np.linalg.LinAlgError) as exc:
+        m.notes.append(f"velocity not re-measured against the class templates: {exc}")
+        return m.rv
+    if r is not m.rv and r.note:
+        m.notes.append(r.note)
+    return r
 
 
 #: Predicted lines are kept this far (fraction of the wavelength, 600 km/s) beyond the

@@ -98,6 +98,74 @@ def choose_rv(mask_res: RVResult, template_res: RVResult) -> RVResult:
     return mask_res
 
 
+#: Stars this cool or cooler (K; F0 and later) have lines dense enough that the curated
+#: mask is blended: their velocity is re-measured against the templates of their own
+#: class (:func:`refine_with_class`).  Our choice, from tests/bench/bench_ident.py.
+DENSE_TEFF_K = 7500.0
+#: Half-width (km/s) of the velocity search around the first estimate when refining.
+REFINE_HALF_KMS = 30.0
+
+
+def neighbour_classes(teff_k: float) -> tuple[str, ...]:
+    """The template classes (:data:`atlas.synth.templates.CLASS_TEFF_K`) either side of
+    ``teff_k``, or the nearest one beyond the grid's ends."""
+    from atlas.synth.templates import CLASS_TEFF_K
+
+    names = sorted(CLASS_TEFF_K, key=CLASS_TEFF_K.get)  # coolest first
+    temps = [CLASS_TEFF_K[n] for n in names]
+    k = int(np.searchsorted(temps, float(teff_k)))
+    if k <= 0:
+        return (names[0],)
+    if k >= len(names):
+        return (names[-1],)
+    return (names[k - 1], names[k])
+
+
+def template_step_kms(line_fwhm_kms: float) -> float:
+    """Grid step (km/s) of a template fit for lines of this FWHM: a tenth of it, within
+    0.5-2.5 km/s (coarser bins biased a dense G star by 0.15 km/s in bench_ident)."""
+    return float(np.clip(line_fwhm_kms / 10.0, 0.5, 2.5))
+
+
+def refine_with_class(ds, res: RVResult | None, class_teff_k: float | None, lines, *,
+                      continuum=None) -> RVResult | None:
+    """A cool star's velocity re-measured against the templates next to its class.
+
+    When the star is at or below :data:`DENSE_TEFF_K` and its first velocity came from
+    the hot-star template fit or from an unreliable line mask (as on spectra with
+    thousands of blended lines), :func:`atlas.measure.rv_template.template_rv` is run
+    with :func:`neighbour_classes` at :func:`template_step_kms`, within
+    :data:`REFINE_HALF_KMS` of the first velocity; its result replaces the first when it
+    finds a minimum.  Otherwise ``res`` is returned unchanged.
+    """
+    from atlas.measure.rv_template import template_rv
+    from atlas.physics.barycentric import apply_kms
+    from atlas.spectrum import medium_of
+
+    if res is None or res.rv_obs_kms is None or class_teff_k is None or not np.isfinite(class_teff_k):
+        return res
+    if class_teff_k > DENSE_TEFF_K or (res.method == "line mask" and not needs_template(res)):
+        return res
+    r = ds.attrs.get("resolving_power")
+    fwhm = res.line_fwhm_kms or (C_KMS / float(r) if r else 10.0)
+    classes = neighbour_classes(class_teff_k)
+    medium = medium_of(ds)
+    t = template_rv(ds["wavelength"].values, ds["flux"].values,
+                    ds["uncertainty"].values if "uncertainty" in ds else None,
+                    ds["mask"].values if "mask" in ds else None, continuum=continuum,
+                    medium="vacuum" if medium == "vacuum" else "air", resolving_power=r, lines=lines,
+                    classes=classes, v_min_kms=res.rv_obs_kms - REFINE_HALF_KMS,
+                    v_max_kms=res.rv_obs_kms + REFINE_HALF_KMS, step_kms=template_step_kms(fwhm))
+    if t.rv_obs_kms is None:
+        return res
+    t.barycentric_kms = res.barycentric_kms
+    if res.barycentric_kms is not None:
+        t.rv_kms = float(apply_kms(t.rv_obs_kms, res.barycentric_kms))
+    said = f"velocity re-measured against the {'/'.join(classes)} templates (dense lines)"
+    t.note = "; ".join(x for x in (t.note, said) if x)
+    return t
+
+
 #: Spectra longer than this (samples) are binned before the velocity, class and feature
 #: steps, so their memory stays bounded (see :func:`bin_long_spectrum`).
 LONG_SAMPLES = 2_000_000
