@@ -45,6 +45,7 @@ class AtlasData:
         self._lock = threading.Lock()
         self._bounds: dict[str, tuple[np.ndarray, np.ndarray]] = {}
         self._overview: dict[tuple, dict] = {}
+        self._memo: dict[tuple, object] = {}
         self._features: dict[str, object] = {}
         self._lines: dict[str, object] = {}
 
@@ -142,6 +143,15 @@ class AtlasData:
         ov = _minmax_bins(wave[order], fl[order], n_bins)
         self._overview[key] = ov
         return ov
+
+    def cached(self, key: tuple, make):
+        """``make()`` computed once per process and ``key`` (derived data every session of
+        this atlas shares)."""
+        if key not in self._memo:
+            value = make()
+            with self._lock:
+                self._memo.setdefault(key, value)
+        return self._memo[key]
 
     def features(self, star_id: str):
         """Measured features (identified and unidentified) as a DataFrame, or None.

@@ -97,7 +97,10 @@ class FeaturesPanel:
             n = len(df)
             df["unexplained"] = is_unexplained(df["species"] if "species" in df else [""] * n,
                                                df["kind"] if "kind" in df else [""] * n)
-            df["depth"] = feature_depths(self.vm.data, st.star, df["wavelength_A"].to_numpy(float))
+            if "depth" not in df or not np.isfinite(df["depth"].to_numpy(float)).any():
+                # atlases built before the features group stored each feature's depth
+                df["depth"] = self.vm.data.cached(("feature_depths", st.star), lambda: feature_depths(
+                    self.vm.data, st.star, df["wavelength_A"].to_numpy(float)))
         else:
             df = None
         self._table = (st.star, df)
