@@ -45,7 +45,7 @@ reference: install
 	@[ -f $(REF)/linetools-0.3.2-py3-none-any.whl ] || $(BIN)/pip download --quiet --disable-pip-version-check --no-deps --only-binary :all: linetools==0.3.2 -d $(REF)
 
 test: install chromium reference
-	$(BIN)/python -m pytest
+	$(BIN)/python -m pytest --durations=15
 
 demo-atlas: install
 	$(BIN)/striae build build/demo.toml
