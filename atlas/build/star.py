@@ -250,6 +250,11 @@ def predicted_lines(m):
                       line_fwhm_kms=m.line_fwhm_kms)
 
 
+#: The file's attributes kept in the star store's root for the card (DESIGN.md Spectrum).
+OBSERVATION_ATTRS = ("obs_time_utc", "exposure_s", "site_lat_deg", "site_lon_deg", "site_height_m",
+                     "ra_deg", "dec_deg")
+
+
 def build_star(path: str, options: BuildOptions, atlas_url: str, sha: str, in_use: frozenset) -> dict:
     """Build one star from a file into a new store of ``atlas_url``; returns its result.
 
@@ -279,6 +284,8 @@ def build_star(path: str, options: BuildOptions, atlas_url: str, sha: str, in_us
         "lod_levels": None,  # filled in by write_star_arrays
         "lod_factor": FACTOR,
         "tool_version": __version__,
+        # when and where it was observed, for the star's card (absent stays absent)
+        **{k: ds.attrs[k] for k in OBSERVATION_ATTRS if ds.attrs.get(k) is not None},
     }
     key = _content_key(sha, options, path)
     sname = store.fresh_store_name(slug, key, atlas_url, set(in_use))

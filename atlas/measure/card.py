@@ -24,6 +24,8 @@ MEASUREMENT_KEYS = (
     "class_range",
     "class_criteria",
     "colour_basis",
+    "rv_method",
+    "vsini_kms",
 )
 
 
@@ -55,6 +57,8 @@ def star_measurements(ds, *, site=None, radec=None, time=None, extra: dict | Non
     - ``class_range`` (e.g. ``"B4-B6"``, or ``"uncertain"``) and ``class_criteria`` (a list
       of ``{"name", "value", "says"}``): the published criteria behind the class,
       :mod:`atlas.measure.criteria`.
+    - ``rv_method`` (``"line mask"`` or ``"template <class>"``) and ``vsini_kms`` (the rough
+      v sin i of :func:`atlas.measure.rv.vsini_rough`, or the template fit's).
     - ``colour_basis``: ``"calibrated"`` (flux density) or ``"instrument"`` (counts with the
       instrument's throughput, and for echelle files the blaze, in them).
     """
@@ -85,6 +89,8 @@ def star_measurements(ds, *, site=None, radec=None, time=None, extra: dict | Non
         values["rv_kms"] = finite_or_none(m.rv.rv_kms)
         values["rv_obs_kms"] = finite_or_none(m.rv.rv_obs_kms)
         values["rv_err_kms"] = finite_or_none(m.rv.rv_err_kms)
+        values["rv_method"] = m.rv.method
+        values["vsini_kms"] = finite_or_none(m.rv.vsini_rough_kms)
         if m.rv.method != "line mask":
             notes.append(f"radial velocity by {m.rv.method} fit")
         if m.rv.rv_kms is None:

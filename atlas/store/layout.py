@@ -28,11 +28,11 @@ RECORD_KEYS = (
     "medium", "samples", "strips",
     "barycentric_kms", "rv_kms", "rv_err_kms", "teff_k", "spectral_class", "snr",
     "resolving_power", "colour_srgb", "rv_obs_kms", "store_sha256", "source_path",
-    "class_range", "class_criteria", "colour_basis",
+    "class_range", "class_criteria", "colour_basis", "rv_method", "vsini_kms",
 )
 #: Record keys that hold a number or null.
 NUMBER_KEYS = ("barycentric_kms", "rv_kms", "rv_err_kms", "rv_obs_kms", "teff_k", "snr",
-               "resolving_power", "wavelength_min_A", "wavelength_max_A")
+               "resolving_power", "wavelength_min_A", "wavelength_max_A", "vsini_kms")
 
 ID_RE = re.compile(r"[a-z0-9][a-z0-9-]{0,63}")
 _STORE_RE = re.compile(r"stars/[a-z0-9][a-z0-9-]{0,80}\.zarr")
@@ -70,6 +70,8 @@ class StarRecord:
     class_range: str | None = None
     class_criteria: list | None = None
     colour_basis: str | None = None
+    rv_method: str | None = None
+    vsini_kms: float | None = None
 
     @classmethod
     def from_dict(cls, d: dict) -> StarRecord:

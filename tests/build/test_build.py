@@ -17,14 +17,12 @@ from atlas.store import RECORD_KEYS, open_atlas
 
 from ._data import one_line_error_check, star_files, synthetic, write_csv
 
-pytest.importorskip("atlas.io")
-
 DESIGN_RECORD_KEYS = {  # ../shared/DESIGN.md, "Atlas on disk"
     "id", "name", "store", "source", "source_sha256", "wavelength_min_A", "wavelength_max_A",
     "medium", "samples", "strips", "barycentric_kms", "rv_kms", "rv_err_kms", "teff_k",
     "spectral_class", "snr", "resolving_power", "colour_srgb",
     "rv_obs_kms", "store_sha256", "source_path",  # extensions: DEVELOPERS.md "Atlas on disk"
-    "class_range", "class_criteria", "colour_basis",
+    "class_range", "class_criteria", "colour_basis", "rv_method", "vsini_kms",
 }
 
 
@@ -42,6 +40,7 @@ def test_catalog_has_the_contract_keys(tmp_path, three):
     assert set(RECORD_KEYS) == DESIGN_RECORD_KEYS
     for rec in cat["stars"]:
         assert set(rec) == DESIGN_RECORD_KEYS
+        assert rec["rv_method"] == "line mask" or rec["rv_method"].startswith("template")
         assert store.ID_RE.fullmatch(rec["id"])
         assert rec["store"].startswith("stars/") and rec["store"].endswith(".zarr")
         assert rec["colour_srgb"].startswith("#") and len(rec["colour_srgb"]) == 7
