@@ -57,7 +57,6 @@ def test_span_crosses_strips_within_the_point_budget(built_atlas):
 
 @pytest.fixture
 def viewer(built_atlas):
-    pytest.importorskip("panel")
     from atlas.app.data import open_view_atlas
     from atlas.app.state import ViewState
     from atlas.app.viewer import Viewer

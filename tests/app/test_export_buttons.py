@@ -4,8 +4,6 @@ from __future__ import annotations
 
 import pytest
 
-pytest.importorskip("panel")
-
 
 @pytest.fixture
 def viewer(make_viewer):

@@ -6,8 +6,6 @@ import pytest
 
 from atlas.app.markers import parse_mark
 
-pytest.importorskip("panel")
-
 
 def test_parse_mark_reads_ranges_units_and_notes():
     assert parse_mark("6550-6575 Hα wing") == (6550.0, 6575.0, "Hα wing")

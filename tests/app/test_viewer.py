@@ -5,14 +5,12 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-pytest.importorskip("panel")
-
-from atlas.app.card import star_card_html, swatch_css  # noqa: E402
-from atlas.app.data import open_view_atlas  # noqa: E402
-from atlas.app.frames import Frame  # noqa: E402
-from atlas.app.state import ViewState  # noqa: E402
-from atlas.app.strippanel import DEFAULT_PX  # noqa: E402
-from atlas.app.viewer import Viewer  # noqa: E402
+from atlas.app.card import star_card_html, swatch_css
+from atlas.app.data import open_view_atlas
+from atlas.app.frames import Frame
+from atlas.app.state import ViewState
+from atlas.app.strippanel import DEFAULT_PX
+from atlas.app.viewer import Viewer
 
 
 class _Range:

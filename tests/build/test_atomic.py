@@ -22,8 +22,6 @@ from atlas.store.write import MANIFEST
 
 from ._data import star_files
 
-pytest.importorskip("atlas.io")
-
 
 def _snapshot(atlas: Path) -> dict:
     """Bytes digest of atlas.json and of every file in the stores it names."""
