@@ -12,8 +12,6 @@ from atlas.store import open_atlas
 
 from ._data import star_files
 
-pytest.importorskip("atlas.io")
-
 
 @pytest.mark.slow
 def test_two_workers_build_the_same_atlas_as_serial(tmp_path):
