@@ -130,6 +130,18 @@ def _edges_to_ranges(coord: np.ndarray, lo: np.ndarray, hi: np.ndarray):
     return start[keep], stop[keep], keep
 
 
+def _grid(coord: np.ndarray, width: float, overlap: float):
+    """Strips of ``width`` in ``coord`` (sorted), stepped by ``width * (1 - overlap)`` on a grid
+    anchored at 0; returns (lo, hi, start, stop, keep) as ``_edges_to_ranges`` gives them."""
+    step = width * (1.0 - overlap)
+    k_first = math.floor(coord[0] / step)
+    k_last = max(k_first, math.floor((coord[-1] - width) / step) + 1)
+    lo = np.arange(k_first, k_last + 1, dtype=np.float64) * step
+    hi = lo + width
+    start, stop, keep = _edges_to_ranges(coord, lo, hi)
+    return lo, hi, start, stop, keep
+
+
 def plan_velocity(wave_A: np.ndarray, strip_kms: float, overlap: float = DEFAULT_OVERLAP) -> StripPlan:
     """Plan strips of equal velocity width ``strip_kms`` over sorted wavelengths (Å).
 
@@ -138,16 +150,8 @@ def plan_velocity(wave_A: np.ndarray, strip_kms: float, overlap: float = DEFAULT
     """
     strip_kms = check_width(strip_kms, "--strip-kms")
     overlap = check_overlap(overlap)
-    wave = np.asarray(wave_A, dtype=np.float64)
-    lnw = np.log(wave)
-    W = strip_kms / C_KMS
-    S = W * (1.0 - overlap)
-    k_first = math.floor(lnw[0] / S)
-    k_last = max(k_first, math.floor((lnw[-1] - W) / S) + 1)
-    k = np.arange(k_first, k_last + 1, dtype=np.float64)
-    lo = k * S
-    hi = lo + W
-    start, stop, keep = _edges_to_ranges(lnw, lo, hi)
+    lnw = np.log(np.asarray(wave_A, dtype=np.float64))
+    lo, hi, start, stop, keep = _grid(lnw, strip_kms / C_KMS, overlap)
     return StripPlan(start, stop, np.exp(lo[keep]), np.exp(hi[keep]), "velocity", strip_kms)
 
 
@@ -156,13 +160,7 @@ def plan_equal_A(wave_A: np.ndarray, width_A: float, overlap: float = DEFAULT_OV
     width_A = check_width(width_A, "--equal-A")
     overlap = check_overlap(overlap)
     wave = np.asarray(wave_A, dtype=np.float64)
-    S = width_A * (1.0 - overlap)
-    k_first = math.floor(wave[0] / S)
-    k_last = max(k_first, math.floor((wave[-1] - width_A) / S) + 1)
-    k = np.arange(k_first, k_last + 1, dtype=np.float64)
-    lo = k * S
-    hi = lo + width_A
-    start, stop, keep = _edges_to_ranges(wave, lo, hi)
+    lo, hi, start, stop, keep = _grid(wave, width_A, overlap)
     return StripPlan(start, stop, lo[keep], hi[keep], "equal_A", width_A)
 
 

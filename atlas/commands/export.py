@@ -7,9 +7,8 @@ chosen ``--frame`` and ``--medium``.
 
 from __future__ import annotations
 
-import math
-
 from atlas.errors import InputError
+from atlas.viewspec import Bad, read_number
 
 HELP = "write a star (or a region of it) as print-ready PDF pages or a standalone HTML page"
 EXAMPLE = (
@@ -58,12 +57,13 @@ def add_arguments(parser) -> None:
 
 
 def _float(text: str, where: str) -> float:
+    """A finite number for a command-line value (the view spec's number reader, refusing)."""
     try:
-        x = float(text)
-    except ValueError:
-        raise InputError(where, f"{text.strip()[:40]!r} is not a number") from None
-    if not math.isfinite(x):
-        raise InputError(where, f"{text.strip()[:40]!r} is not a finite number")
+        x = read_number(text, where)
+    except Bad as err:
+        raise InputError(where, err.reason) from None
+    if x is None:
+        raise InputError(where, "a number is missing")
     return x
 
 
